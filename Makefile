@@ -1,0 +1,27 @@
+# tonepair developer targets.  Everything installs into ./.venv from pyproject.toml.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+DEMO_CAPTURE := sample_captures/beacon_demo.sigmf-meta
+
+.PHONY: venv venv-test demo test clean
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+venv: $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e .
+
+venv-test: $(BIN)/python
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+
+demo: venv
+	MPLBACKEND=Agg $(BIN)/tonepair analyze $(DEMO_CAPTURE) --tones -2500,2500 --baud 5000 \
+		--reference auto --out reports --name demo --overwrite
+
+test: venv-test
+	MPLBACKEND=Agg $(BIN)/python -m pytest -q
+
+clean:
+	rm -rf $(VENV) build *.egg-info
