@@ -1,0 +1,157 @@
+"""The ``tonepair`` command line: parses options and calls the pipeline.
+
+Exit codes: 0 analysed (pass or not judged), 1 analysed but the spec failed,
+2 unusable input or options (one line ``error: ...`` on stderr, no traceback
+unless ``--debug``, no report files left behind).
+"""
+
+from __future__ import annotations
+
+import sys
+import traceback
+from enum import Enum
+from pathlib import Path
+from typing import Optional
+
+import typer
+
+from . import __version__
+from .errors import InputError
+
+app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
+                  help="tonepair: measure two-tone FSK bursts in a capture - tones, symbol rate, "
+                       "Eb/N0, bit errors against the test pattern, and loss against theory.")
+
+_DEBUG = {"on": False}
+
+
+class RawFormat(str, Enum):
+    cf32 = "cf32"
+    ci16 = "ci16"
+    ci8 = "ci8"
+    cu8 = "cu8"
+
+
+def _fail(exc: BaseException) -> None:
+    if _DEBUG["on"]:
+        traceback.print_exc()
+    if isinstance(exc, InputError):
+        typer.echo(f"error: {exc.line()}", err=True)
+    else:
+        typer.echo(f"error: internal problem ({type(exc).__name__}: {exc}); rerun with --debug and "
+                   "report it", err=True)
+    raise typer.Exit(2)
+
+
+def _pair(text: str | None, what: str) -> tuple[float, float] | None:
+    if text is None:
+        return None
+    parts = [p for p in text.replace(" ", "").split(",") if p]
+    try:
+        vals = tuple(float(p) for p in parts)
+    except ValueError:
+        raise InputError(f"{what} must be two numbers separated by a comma, got {text!r}") from None
+    if len(vals) != 2:
+        raise InputError(f"{what} must be two numbers separated by a comma, got {text!r}")
+    return vals  # type: ignore[return-value]
+
+
+def _version(value: bool):
+    if value:
+        typer.echo(f"tonepair {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _main(debug: bool = typer.Option(False, "--debug", help="Show the full traceback of any error."),
+          version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
+                                       help="Print the version and exit.")):
+    _DEBUG["on"] = debug
+
+
+@app.command()
+def analyze(
+    capture: Path = typer.Argument(..., help="Capture file: .sigmf-meta/.sigmf-data, raw I/Q (with --rate and "
+                                              "--format), or .wav/.flac (2 channels = I/Q, 1 = audio)."),
+    tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1",
+                                        help="Nominal tones in Hz: baseband from the capture centre for I/Q, "
+                                             "audio Hz for audio. Example: --tones -2500,2500"),
+    baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate in Hz."),
+    rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help="Sample rate of a raw file."),
+    fmt: Optional[RawFormat] = typer.Option(None, "--format", help="Sample format of a raw file "
+                                                                  "(little-endian interleaved I/Q)."),
+    reference: str = typer.Option("auto", "--reference", metavar="REF",
+                                  help="Test pattern: auto (detect an ITU-T O.150 PRBS), none, PN7, PN9, PN11, "
+                                       "PN15, PN23, or bits:FILE (text of 0/1, repeated)."),
+    decision: str = typer.Option("square-law", "--decision", help="square-law, or likelihood (weighs each "
+                                                                  "envelope by its own tone energy)."),
+    out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
+    name: Optional[str] = typer.Option(None, "--name", help="Base name of the report files "
+                                                            "(default: the capture's name)."),
+    json_path: Optional[Path] = typer.Option(None, "--json", help="JSON report path (default OUT/NAME.json)."),
+    html_path: Optional[Path] = typer.Option(None, "--html", help="HTML report path (default OUT/NAME.html)."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
+    quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
+):
+    """Analyse one capture and write JSON and HTML reports.
+
+    Example:  tonepair analyze sample_captures/beacon_demo.sigmf-meta --tones -2500,2500 --baud 5000
+    """
+    from .commands import run_analyze
+
+    try:
+        code = run_analyze(capture=capture, tones=_pair(tones, "--tones"), baud=baud, rate=rate,
+                           fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
+                           name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet)
+    except typer.Exit:
+        raise
+    except Exception as exc:  # noqa: BLE001 - every failure becomes one error line
+        _fail(exc)
+    raise typer.Exit(code)
+
+
+@app.command()
+def synth(
+    out: Path = typer.Argument(..., help="Output: NAME.sigmf-meta (or NAME for SigMF), NAME.wav or NAME.flac."),
+    tones: str = typer.Option("-2500,2500", "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
+    baud: float = typer.Option(5000.0, "--baud", help="Symbol rate, Hz."),
+    rate: float = typer.Option(80000.0, "--rate", help="Sample rate, Hz."),
+    ebn0: float = typer.Option(10.0, "--ebn0", help="Eb/N0 in dB (average bit energy over N0, N0 over the "
+                                                    "sample bandwidth)."),
+    offset: float = typer.Option(0.0, "--offset", help="Transmitter frequency error added to both tones, Hz."),
+    continuous_phase: bool = typer.Option(False, "--continuous-phase/--random-phase",
+                                          help="Continuous-phase keying, or a random phase per symbol."),
+    start: float = typer.Option(1000.0, "--start", help="Fractional sample where the first symbol begins."),
+    rate_error: float = typer.Option(0.0, "--rate-error", help="Symbol-rate error, ppm."),
+    bursts: int = typer.Option(1, "--bursts", help="Number of bursts."),
+    symbols: int = typer.Option(2000, "--symbols", help="Symbols per burst."),
+    gap: float = typer.Option(4000.0, "--gap", help="Samples of noise between bursts."),
+    pattern: str = typer.Option("PN9", "--pattern", help="ITU-T O.150 pattern: PN7, PN9, PN11, PN15, PN23."),
+    amplitudes: str = typer.Option("1,1", "--amplitudes", metavar="A0,A1", help="Relative tone amplitudes."),
+    ramp: float = typer.Option(0.0, "--ramp", help="Power ramp at each burst edge, symbols."),
+    datatype: str = typer.Option("cf32_le", "--datatype", help="SigMF datatype: cf32_le or ci16_le."),
+    audio: bool = typer.Option(False, "--audio", help="Write mono real audio (tones in audio Hz)."),
+    centre: Optional[float] = typer.Option(None, "--centre", help="RF centre frequency to record, Hz."),
+    seed: int = typer.Option(1, "--seed", help="Random seed."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace files that exist."),
+):
+    """Write a synthetic capture of FSK bursts in noise, with its truth (demo data and tests)."""
+    from .commands import run_synth
+
+    try:
+        path = run_synth(out=out, tones=_pair(tones, "--tones"), baud=baud, rate=rate, ebn0=ebn0, offset=offset,
+                         continuous_phase=continuous_phase, start=start, rate_error=rate_error, bursts=bursts,
+                         symbols=symbols, gap=gap, pattern=pattern, amplitudes=_pair(amplitudes, "--amplitudes"),
+                         ramp=ramp, datatype=datatype, audio=audio, centre=centre, seed=seed, overwrite=overwrite)
+    except Exception as exc:  # noqa: BLE001
+        _fail(exc)
+    typer.echo(f"wrote {path}")
+
+
+def main() -> None:
+    """Console-script entry point."""
+    try:
+        app()
+    except KeyboardInterrupt:
+        typer.echo("error: interrupted", err=True)
+        sys.exit(2)

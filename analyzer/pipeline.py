@@ -1,0 +1,460 @@
+"""Run the stages on one capture: the body of ``analyzer.analyze``.
+
+capture -> acquire -> branches -> decide -> prbs -> estimate -> theory.
+The report stage (JSON, HTML, PDF, terminal) reads the :class:`AnalysisResult`.
+"""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Callable
+
+import numpy as np
+
+from . import acquire, branches, decide, estimate, prbs, theory
+from .capture import Capture, open_capture
+from .errors import CaptureWarning, InputError
+
+__all__ = ["AnalysisOptions", "BurstResult", "Summary", "AnalysisResult", "analyze", "analyze_capture"]
+
+BLOCK_FRAMES = 4096          # power-trace frames read per block
+MIN_SYMBOLS = 16             # shortest burst analysed
+
+
+@dataclass(frozen=True)
+class AnalysisOptions:
+    """What the user told us about the link.
+
+    Attributes
+    ----------
+    tones_hz : (float, float) or None
+        Nominal tones (hints), Hz.
+    symbol_rate_hz : float or None
+        Nominal symbol rate (hint), Hz.
+    reference : str
+        ``"auto"``, ``"none"``, an O.150 name (``"PN9"``...) or ``"bits:FILE"``.
+    decision : str
+        ``"square-law"`` (default) or ``"likelihood"`` (unequal-energy rule).
+    """
+
+    tones_hz: tuple[float, float] | None = None
+    symbol_rate_hz: float | None = None
+    reference: str = "auto"
+    decision: str = "square-law"
+
+
+@dataclass(frozen=True)
+class BerCount:
+    """Bit errors against the reference, with the Clopper-Pearson 95% interval."""
+
+    reference: str
+    bits: int
+    errors: int
+    rate: float
+    ci95: tuple[float, float]
+    slips: int
+    tone_for_one: str          # "high" or "low": which tone carries a ONE of the pattern
+
+
+@dataclass(frozen=True)
+class BurstResult:
+    """Everything measured on one burst."""
+
+    index: int
+    grid: branches.SymbolGrid
+    tones_hz: tuple[float, float]
+    symbol_rate_hz: float
+    timing_quality: float
+    outputs: branches.BranchOutputs
+    decisions: np.ndarray
+    sent: np.ndarray                 # tone index used for the statistics (known or decided)
+    stats: estimate.BranchStats
+    moments: estimate.GroupMoments
+    rho: complex
+    ber: BerCount | None
+    ber_theory: float
+    theory_model: theory.LinkModel
+    loss: theory.LossEstimate | None
+    power_dbfs: float
+    nominal_tones_hz: tuple[float, float] | None
+
+    @property
+    def n_symbols(self) -> int:
+        return self.grid.n_symbols
+
+    @property
+    def centre_offset_hz(self) -> float:
+        """Mean of the two measured tones minus the nominal centre (0 when no hints)."""
+        mid = 0.5 * (self.tones_hz[0] + self.tones_hz[1])
+        if self.nominal_tones_hz is None:
+            return float(mid)
+        return float(mid - 0.5 * (self.nominal_tones_hz[0] + self.nominal_tones_hz[1]))
+
+    @property
+    def deviation_hz(self) -> float:
+        """Half the measured tone spacing."""
+        return 0.5 * (self.tones_hz[1] - self.tones_hz[0])
+
+
+@dataclass(frozen=True)
+class Summary:
+    """All bursts pooled."""
+
+    stats: estimate.BranchStats | None
+    ber: BerCount | None
+    ber_theory: float
+    loss: theory.LossEstimate | None
+
+
+@dataclass(frozen=True)
+class AnalysisResult:
+    """The outcome of analysing one capture."""
+
+    capture: Capture
+    options: AnalysisOptions
+    bursts: tuple[BurstResult, ...]
+    summary: Summary
+    noise_floor_dbfs: float
+    spectrum_hz: np.ndarray
+    spectrum_db: np.ndarray
+    warnings: tuple[str, ...] = field(default_factory=tuple)
+
+
+# --------------------------------------------------------------------------- helpers
+def _check_hints(cap: Capture, opts: AnalysisOptions) -> None:
+    fs = cap.sample_rate_hz
+    if opts.tones_hz is None or opts.symbol_rate_hz is None:
+        raise InputError("tone and symbol-rate hints are needed", cap.path,
+                         "give --tones F0,F1 and --baud R (Hz)")
+    f0, f1 = opts.tones_hz
+    rs = opts.symbol_rate_hz
+    if not f0 < f1:
+        raise InputError(f"--tones must be F0,F1 with F0 < F1, got {f0:g},{f1:g}", cap.path)
+    if rs <= 0 or rs > fs / 2:
+        raise InputError(f"symbol rate {rs:g} Hz is not between 0 and half the sample rate "
+                         f"({fs / 2:g} Hz)", cap.path, "check --baud")
+    lo, hi = (0.0, fs / 2) if cap.kind == "audio" else (-fs / 2, fs / 2)
+    if f0 < lo or f1 > hi:
+        raise InputError(f"tones {f0:g},{f1:g} Hz lie outside the sample band "
+                         f"[{lo:g}, {hi:g}] Hz", cap.path, "check --tones (baseband Hz for I/Q, audio Hz for audio)")
+    if f1 - f0 < 0.25 * rs:
+        raise InputError(f"tones {f0:g},{f1:g} Hz are closer than a quarter of the symbol rate",
+                         cap.path, "check --tones and --baud")
+
+
+def _noise_bands(cap: Capture, band: tuple[float, float], guard: float) -> list[tuple[float, float]]:
+    fs = cap.sample_rate_hz
+    lo_edge = guard if cap.kind == "audio" else -fs / 2
+    out = []
+    if band[0] - guard > lo_edge:
+        out.append((lo_edge, band[0] - guard))
+    if band[1] + guard < fs / 2:
+        out.append((band[1] + guard, fs / 2))
+    return out
+
+
+def _power_trace(cap: Capture, band, frame: int, noise_bands, nfft_psd: int, progress):
+    """One pass over the capture: in-band power trace and an averaged spectrum."""
+    block = frame * BLOCK_FRAMES
+    block -= block % nfft_psd if block > nfft_psd else 0
+    powers, noises = [], []
+    psd = np.zeros(nfft_psd)
+    n_psd = 0
+    pos = 0
+    while pos < cap.n_samples:
+        x = cap.read(pos, block)
+        if len(x) == 0:
+            break
+        if not np.all(np.isfinite(x)):
+            bad = pos + int(np.flatnonzero(~np.isfinite(x))[0])
+            raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", cap.path,
+                             "the recording is corrupt; trim or re-record it")
+        p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, band, frame, noise_bands)
+        powers.append(p)
+        noises.append(nd)
+        m = len(x) // nfft_psd
+        if m:
+            seg = x[:m * nfft_psd].reshape(m, nfft_psd) * np.hanning(nfft_psd)
+            psd += np.sum(np.abs(np.fft.fft(seg, axis=1)) ** 2, axis=0)
+            n_psd += m
+        pos += len(x)
+        if progress:
+            progress(pos, cap.n_samples)
+    power = np.concatenate(powers) if powers else np.empty(0)
+    noise = np.concatenate(noises) if noises else np.empty(0)
+    if n_psd:
+        psd /= n_psd * np.sum(np.hanning(nfft_psd) ** 2)
+    freqs = np.fft.fftshift(np.fft.fftfreq(nfft_psd, 1.0 / cap.sample_rate_hz))
+    return power, noise, freqs, np.fft.fftshift(psd)
+
+
+def _merge_spans(spans, gap: int, margin: int, n_samples: int) -> list[tuple[int, int]]:
+    out: list[list[int]] = []
+    for s in spans:
+        a, b = max(0, s.start - margin), min(n_samples, s.stop + margin)
+        if out and a - out[-1][1] < gap:
+            out[-1][1] = max(out[-1][1], b)
+        else:
+            out.append([a, b])
+    return [(a, b) for a, b in out]
+
+
+def _resolve_reference(opts: AnalysisOptions, bits: np.ndarray, bits_file_text: str | None):
+    """The reference to count errors against, or None (with the tone mapping found)."""
+    ref = opts.reference
+    if ref == "none":
+        return None
+    if ref == "auto":
+        det = prbs.detect_pattern(bits)
+        if det is None:
+            return None
+        return prbs.Reference.prbs(det.name, inverted=det.inverted)
+    if ref.startswith("bits:"):
+        pattern = prbs.parse_bits_text(bits_file_text or "", ref[5:])
+        return prbs.Reference.pattern(pattern, ref)
+    # a named pattern: find the polarity (tone mapping) from the data
+    det = prbs.detect_pattern(bits, candidates=[ref])
+    inverted = bool(det.inverted) if det is not None else False
+    return prbs.Reference.prbs(ref, inverted=inverted)
+
+
+def _count(bits: np.ndarray, ref) -> tuple[prbs.ErrorCount | None, bool]:
+    """Count errors; return the count and whether a ONE rides on the low tone.
+
+    For a PRBS the polarity found by detection already fixes the mapping; for
+    an explicit pattern both mappings are tried and the better kept.
+    ``expected`` in the returned count is always in tone-index space.
+    """
+    if ref is None:
+        return None, False
+    if ref.is_prbs:
+        return prbs.count_errors(bits, ref), bool(ref.inverted)
+    direct = prbs.count_errors(bits, ref)
+    swapped = prbs.count_errors(bits ^ np.uint8(1), ref)
+    if swapped.synced and (not direct.synced or swapped.errors < direct.errors):
+        return replace(swapped, expected=swapped.expected ^ np.uint8(1)), True
+    return direct, False
+
+
+def _ber_count(ec: prbs.ErrorCount, low_is_one: bool) -> BerCount:
+    lo, hi = theory.clopper_pearson(ec.errors, ec.bits)
+    return BerCount(reference=ec.reference, bits=int(ec.bits), errors=int(ec.errors),
+                    rate=float(ec.errors / ec.bits) if ec.bits else float("nan"),
+                    ci95=(float(lo), float(hi)), slips=int(ec.slips),
+                    tone_for_one="low" if low_is_one else "high")
+
+
+def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
+    idx = grid.first_samples[:, None] - x_start + np.arange(grid.window)[None, :]
+    return x[idx]
+
+
+# --------------------------------------------------------------------------- one burst
+def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: AnalysisOptions,
+                            noise_var: float):
+    """Timing on the span, then symbol-level segmentation into bursts."""
+    tones = tuple(float(f) for f in opts.tones_hz)
+    rs = float(opts.symbol_rate_hz)
+    tm = acquire.estimate_symbol_timing(x, x_start, fs, tones, rs)
+    grid = acquire.grid_for_span(tm.phase_sample, tm.symbol_rate_hz, fs, x_start, x_start + len(x) - 1)
+    if grid.n_symbols < 1:
+        return []
+    out = branches.correlate(x, x_start, grid, tones, fs)
+    energy = np.sum(np.abs(out.z) ** 2, axis=1)
+    segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=MIN_SYMBOLS)
+    return [(grid, f, s) for f, s in segs]
+
+
+def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: branches.SymbolGrid,
+                   first: int, stop: int, opts: AnalysisOptions, bits_text: str | None,
+                   full_scale: float) -> BurstResult:
+    rs_hint = float(opts.symbol_rate_hz)
+    sps = grid0.samples_per_symbol
+    grid = branches.symbol_grid(grid0.starts[first], sps, stop - first)
+    tones = tuple(float(f) for f in opts.tones_hz)
+    # timing and rate on this burst alone (the span may have held several)
+    lo = max(0, int(np.floor(grid.first_start)) - x_start - int(sps))
+    hi = min(len(x), int(np.ceil(grid.stop)) - x_start + int(sps))
+    tm = acquire.estimate_symbol_timing(x[lo:hi], x_start + lo, fs, tones, rs_hint)
+    sps2 = fs / tm.symbol_rate_hz
+    k = np.round((grid.first_start - tm.phase_sample) / sps2)
+    cand = branches.symbol_grid(tm.phase_sample + k * sps2, sps2, grid.n_symbols)
+    if cand.first_samples[0] >= x_start and cand.first_samples[-1] + cand.window <= x_start + len(x):
+        grid = cand
+    # alternate: timing by the receiver's own energy metric, then tones from
+    # the symbols that carried them (decision-directed)
+    for _ in range(2):
+        grid = acquire.refine_timing(x, x_start, grid, tones, fs)
+        out = branches.correlate(x, x_start, grid, tones, fs)
+        dec = decide.square_law(out.z)
+        tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
+    grid = acquire.refine_timing(x, x_start, grid, tones, fs)
+    out = branches.correlate(x, x_start, grid, tones, fs)
+    dec = decide.square_law(out.z)
+
+    rho = branches.template_correlation(tones, fs, grid.window)
+    scale = grid.samples_per_symbol / grid.window
+
+    # pattern sync and error count
+    ref = _resolve_reference(opts, dec, bits_text)
+    ec, low_one = _count(dec, ref)
+    if ec is not None and ec.synced and ec.bits > 0:
+        sent = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
+        mask = ec.counted
+        data_aided = True
+        ber = _ber_count(ec, low_one)
+    else:
+        sent, mask, data_aided, ber = dec, None, False, None
+    mom = estimate.group_moments(out.z, sent, mask)
+    stats = estimate.branch_stats(mom, abs(rho), scale, data_aided)
+
+    if opts.decision == "likelihood" and np.all(stats.gain_sq > 0):
+        s2 = float(np.mean(stats.noise_var_complex))
+        dec = decide.likelihood_ratio(out.z, tuple(stats.signal_gain), s2)
+        ec, low_one = _count(dec, ref)
+        if ec is not None and ec.synced and ec.bits > 0:
+            ber = _ber_count(ec, low_one)
+
+    model = theory.LinkModel(tone_correlation=float(min(abs(rho), 0.999)),
+                             imbalance_db=float(stats.imbalance_db) if np.isfinite(stats.imbalance_db) else 0.0)
+    ber_th = float(theory.ber_expected(stats.ebn0, model)) if np.isfinite(stats.ebn0) else float("nan")
+    loss = None
+    if ber is not None and np.isfinite(stats.ebn0_db):
+        loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
+    p = float(np.mean(np.abs(_rows(x, x_start, grid)) ** 2)) / full_scale
+    return BurstResult(
+        index=index, grid=grid, tones_hz=(float(tones[0]), float(tones[1])),
+        symbol_rate_hz=float(fs / grid.samples_per_symbol), timing_quality=float(tm.line_snr),
+        outputs=out, decisions=dec, sent=sent, stats=stats, moments=mom, rho=rho, ber=ber,
+        ber_theory=ber_th, theory_model=model, loss=loss,
+        power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
+        nominal_tones_hz=opts.tones_hz)
+
+
+def _summary(bursts: list[BurstResult]) -> Summary:
+    if not bursts:
+        return Summary(None, None, float("nan"), None)
+    mom = estimate.pool_moments([b.moments for b in bursts])
+    rho = float(np.mean([abs(b.rho) for b in bursts]))
+    scale = float(np.mean([b.grid.samples_per_symbol / b.grid.window for b in bursts]))
+    stats = estimate.branch_stats(mom, rho, scale, all(b.stats.data_aided for b in bursts))
+    counted = [b.ber for b in bursts if b.ber is not None]
+    ber = None
+    if counted:
+        bits = sum(c.bits for c in counted)
+        errors = sum(c.errors for c in counted)
+        lo, hi = theory.clopper_pearson(errors, bits)
+        names = sorted({c.reference for c in counted})
+        maps = sorted({c.tone_for_one for c in counted})
+        ber = BerCount(reference=",".join(names), bits=bits, errors=errors,
+                       rate=errors / bits if bits else float("nan"), ci95=(float(lo), float(hi)),
+                       slips=sum(c.slips for c in counted), tone_for_one=",".join(maps))
+    # expected BER of the pooled bits: the bit-weighted mean of each burst's theory
+    w = np.array([b.ber.bits if b.ber is not None else b.n_symbols for b in bursts], float)
+    th = np.array([b.ber_theory for b in bursts])
+    ok = np.isfinite(th)
+    ber_th = float(np.sum(w[ok] * th[ok]) / np.sum(w[ok])) if ok.any() else float("nan")
+    loss = None
+    if ber is not None and np.isfinite(stats.ebn0_db):
+        loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
+    return Summary(stats=stats, ber=ber, ber_theory=ber_th, loss=loss)
+
+
+# --------------------------------------------------------------------------- entry points
+def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
+                    progress: Callable[[int, int], None] | None = None) -> AnalysisResult:
+    """Analyse an opened capture (see :func:`analyze`)."""
+    _check_hints(cap, opts)
+    fs = cap.sample_rate_hz
+    f0, f1 = opts.tones_hz
+    rs = float(opts.symbol_rate_hz)
+    sps = fs / rs
+    band = (f0 - rs, f1 + rs)
+    frame = acquire.frame_length(fs, rs)
+    nfft_psd = int(min(4096, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", CaptureWarning)
+        power, noise, freqs, psd = _power_trace(cap, band, frame, _noise_bands(cap, band, rs), nfft_psd,
+                                                progress)
+        bins = acquire.band_bins(fs, band, frame)
+        trace = acquire.PowerTrace(power, noise, frame, bins, band)
+        spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps)
+        noise_var = floor * frame / max(bins, 1)       # complex noise variance per sample
+        full_scale = 1.0
+        floor_dbfs = float(10 * np.log10(noise_var)) if noise_var > 0 else float("-inf")
+        if cap.n_samples == 0 or not np.any(power > 0):
+            raise InputError("the capture holds no signal (all samples are zero)", cap.path,
+                             "check the recording chain")
+        margin = 8 * frame + 4 * int(np.ceil(sps))
+        regions = _merge_spans(spans, gap=int(4 * sps), margin=margin, n_samples=cap.n_samples)
+        bursts: list[BurstResult] = []
+        for a, b in regions:
+            x = cap.read(a, b - a).astype(np.complex128)
+            for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, opts, noise_var):
+                bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
+                                             bits_text, full_scale))
+        if not bursts:
+            raise InputError(f"no tone bursts found above the noise floor ({floor_dbfs:.1f} dBFS "
+                             f"per sample)", cap.path,
+                             "check --tones/--baud, or that the capture holds a transmission")
+        summary = _summary(bursts)
+    messages = tuple(str(w.message) for w in caught if issubclass(w.category, CaptureWarning))
+    spec_db = 10 * np.log10(np.maximum(psd, 1e-30))
+    return AnalysisResult(capture=cap, options=opts, bursts=tuple(bursts), summary=summary,
+                          noise_floor_dbfs=floor_dbfs, spectrum_hz=freqs, spectrum_db=spec_db,
+                          warnings=messages)
+
+
+def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None,
+            sample_rate_hz: float | None = None, fmt: str | None = None, reference: str = "auto",
+            decision: str = "square-law",
+            progress: Callable[[int, int], None] | None = None) -> AnalysisResult:
+    """Analyse a capture of two-tone FSK bursts.
+
+    Parameters
+    ----------
+    path : str or Path
+        SigMF (.sigmf-meta/.sigmf-data), raw I/Q, or WAV/FLAC file.
+    tones_hz : (float, float)
+        Nominal tones: baseband Hz for I/Q, audio Hz for audio.
+    symbol_rate_hz : float
+        Nominal symbol rate.
+    sample_rate_hz, fmt : optional
+        For raw files: sample rate and ``cf32|ci16|ci8|cu8``.
+    reference : str
+        ``auto`` (detect an O.150 pattern), ``none``, ``PN7`` ... ``PN23`` or
+        ``bits:FILE`` (a text file of 0/1 characters, repeated cyclically).
+    decision : str
+        ``square-law`` or ``likelihood``.
+    progress : callable, optional
+        Called as ``progress(done_samples, total_samples)`` during the first pass.
+
+    Returns
+    -------
+    AnalysisResult
+
+    Raises
+    ------
+    InputError
+        For any unusable input or option.
+    """
+    cap = open_capture(path, rate=sample_rate_hz, fmt=fmt)
+    bits_text = None
+    if reference.startswith("bits:"):
+        bpath = Path(reference[5:])
+        try:
+            bits_text = bpath.read_text()
+        except OSError as exc:
+            raise InputError(f"cannot read the bits file ({exc.strerror or exc})", bpath,
+                             "give --reference bits:FILE with a text file of 0/1 characters") from None
+    elif reference not in ("auto", "none") and reference not in prbs.PATTERNS:
+        raise InputError(f"unknown reference {reference!r}", None,
+                         "use auto, none, " + ", ".join(prbs.PATTERNS) + " or bits:FILE")
+    if decision not in ("square-law", "likelihood"):
+        raise InputError(f"unknown decision rule {decision!r}", None, "use square-law or likelihood")
+    opts = AnalysisOptions(tones_hz=None if tones_hz is None else (float(tones_hz[0]), float(tones_hz[1])),
+                           symbol_rate_hz=None if symbol_rate_hz is None else float(symbol_rate_hz),
+                           reference=reference, decision=decision)
+    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress)

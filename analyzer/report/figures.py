@@ -1,0 +1,141 @@
+"""Figures for the HTML and PDF reports (matplotlib, headless).
+
+Each function takes an :class:`~analyzer.pipeline.AnalysisResult` and returns a
+matplotlib Figure; :func:`to_png_base64` embeds one in a page.  Figures
+subsample long data so reports stay small whatever the capture size.
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from scipy import stats  # noqa: E402
+
+from .. import theory  # noqa: E402
+
+# our own palette: slate for data, amber for tone 0, teal for tone 1, brick for theory
+INK = "#2b3440"
+TONE_COLOURS = ("#c9821a", "#1f8a86")
+THEORY = "#9c3b2f"
+GRID = "#d8dde3"
+MAX_POINTS = 20000
+
+
+def _style(ax):
+    ax.grid(True, color=GRID, linewidth=0.6)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    ax.tick_params(labelsize=8)
+
+
+def to_png_base64(fig, dpi: int = 110) -> str:
+    """PNG of ``fig`` as base64 text (the figure is closed)."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi, bbox_inches="tight")
+    plt.close(fig)
+    return base64.b64encode(buf.getvalue()).decode("ascii")
+
+
+def spectrum(result):
+    """Averaged spectrum of the capture with the measured tones of every burst marked."""
+    fig, ax = plt.subplots(figsize=(8.0, 3.0))
+    f = result.spectrum_hz
+    p = result.spectrum_db - np.max(result.spectrum_db)
+    ax.plot(f / 1e3, p, color=INK, linewidth=0.8)
+    for b in result.bursts:
+        for i, ft in enumerate(b.tones_hz):
+            ax.axvline(ft / 1e3, color=TONE_COLOURS[i], linewidth=1.0, alpha=0.8,
+                       label=f"tone {i} measured" if b.index == 0 else None)
+    if result.options.tones_hz is not None:
+        for ft in result.options.tones_hz:
+            ax.axvline(ft / 1e3, color=INK, linestyle=":", linewidth=1.0)
+        ax.plot([], [], color=INK, linestyle=":", label="nominal")
+    ax.set_xlabel("frequency (kHz)" + (" audio" if result.capture.kind == "audio" else " from centre"), fontsize=8)
+    ax.set_ylabel("power (dB, peak = 0)", fontsize=8)
+    ax.set_ylim(max(p.min(), -80), 3)
+    ax.legend(fontsize=7, loc="lower right", frameon=False)
+    _style(ax)
+    return fig
+
+
+def envelope_histograms(result, burst_index: int = 0):
+    """Envelopes |z_i| of each branch pair when its tone was sent and when not, with fitted curves.
+
+    Sent: Rician with ``nu = g_i`` and ``sigma^2`` the variance of one real output;
+    not sent: Rayleigh with that branch's ``sigma`` (a Rician with
+    ``nu = |rho| g_j`` when the tones are not orthogonal).  Curves come from
+    ``scipy.stats.rice`` and ``scipy.stats.rayleigh``.
+    """
+    b = result.bursts[burst_index]
+    r = np.abs(b.outputs.z)
+    sent = b.sent
+    g = b.stats.signal_gain
+    sig = np.sqrt(np.clip(b.stats.noise_var, 1e-300, None))
+    rho = abs(b.rho)
+    fig, axes = plt.subplots(1, 2, figsize=(8.0, 2.8), sharey=False)
+    for i, ax in enumerate(axes):
+        j = 1 - i
+        on = r[sent == i, i]
+        off = r[sent == j, i]
+        hi = np.percentile(np.concatenate([on, off]), 99.5) if len(on) + len(off) else 1.0
+        bins = np.linspace(0, hi, 50)
+        ax.hist(off, bins=bins, density=True, color=GRID, edgecolor="white", label="tone not sent")
+        ax.hist(on, bins=bins, density=True, color=TONE_COLOURS[i], alpha=0.55, edgecolor="white",
+                label="tone sent")
+        x = np.linspace(0, hi, 300)
+        if g[i] > 0:
+            ax.plot(x, stats.rice.pdf(x, g[i] / sig[i], scale=sig[i]), color=THEORY, linewidth=1.2,
+                    label="Rician fit")
+        leak = rho * g[j]
+        if leak > 0.05 * sig[i]:
+            ax.plot(x, stats.rice.pdf(x, leak / sig[i], scale=sig[i]), color=INK, linewidth=1.0,
+                    linestyle="--", label="Rician fit (leakage)")
+        else:
+            ax.plot(x, stats.rayleigh.pdf(x, scale=sig[i]), color=INK, linewidth=1.0, linestyle="--",
+                    label="Rayleigh fit")
+        ax.set_title(f"tone {i} branch pair ({b.tones_hz[i]:.0f} Hz)", fontsize=9)
+        ax.set_xlabel("envelope |z|", fontsize=8)
+        _style(ax)
+        ax.legend(fontsize=6.5, frameon=False)
+    axes[0].set_ylabel("density", fontsize=8)
+    fig.tight_layout()
+    return fig
+
+
+def ber_curve(result):
+    """Theory BER against Eb/N0 with each measured point and its two intervals."""
+    fig, ax = plt.subplots(figsize=(6.0, 3.8))
+    x = np.linspace(0, 16, 200)
+    ax.semilogy(x, theory.ber_orthogonal(10 ** (x / 10)), color=THEORY, linewidth=1.4,
+                label="orthogonal, equal energy: ½·exp(−Eb/2N0)")
+    models = {b.theory_model for b in result.bursts if b.theory_model.closed_form != "orthogonal"}
+    for m in list(models)[:3]:
+        ax.semilogy(x, theory.ber_expected(10 ** (x / 10), m), color=THEORY, linestyle="--", linewidth=1.0,
+                    label=f"{m.closed_form} (|ρ|={m.tone_correlation:.2f}, {m.imbalance_db:+.1f} dB)")
+    pts = [(b.stats, b.ber) for b in result.bursts if b.ber is not None]
+    if result.summary.ber is not None and result.summary.stats is not None and len(result.bursts) > 1:
+        pts.append((result.summary.stats, result.summary.ber))
+    for k, (st, br) in enumerate(pts):
+        if not np.isfinite(st.ebn0_db):
+            continue
+        y = br.rate if br.errors > 0 else br.ci95[1]
+        xerr = np.array([[st.ebn0_db - st.ebn0_db_ci95[0]], [st.ebn0_db_ci95[1] - st.ebn0_db]])
+        yerr = np.array([[max(y - br.ci95[0], 0) if br.errors else 0], [max(br.ci95[1] - y, 0)]])
+        pooled = k == len(pts) - 1 and len(result.bursts) > 1
+        ax.errorbar([st.ebn0_db], [y], xerr=np.nan_to_num(xerr), yerr=yerr, fmt="D" if pooled else "o",
+                    color=INK, markersize=5 if pooled else 4, capsize=3, linewidth=1.0,
+                    uplims=br.errors == 0,
+                    label=("all bursts" if pooled else ("measured" if k == 0 else None)))
+    ax.set_xlabel("Eb/N0 (dB)", fontsize=8)
+    ax.set_ylabel("bit error rate", fontsize=8)
+    ax.set_ylim(1e-7, 0.6)
+    ax.set_xlim(0, 16)
+    _style(ax)
+    ax.legend(fontsize=7, frameon=False, loc="lower left")
+    return fig

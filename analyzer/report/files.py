@@ -1,0 +1,54 @@
+"""Writing report files safely: atomic replace, never over an input, never by surprise."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from ..errors import InputError
+
+
+def check_output(path: Path, inputs: list[Path], overwrite: bool) -> None:
+    """Refuse an output path that is an input, or that exists (unless ``overwrite``)."""
+    p = Path(path)
+    for q in inputs:
+        try:
+            same = p.resolve() == Path(q).resolve()
+        except OSError:
+            same = False
+        if same:
+            raise InputError("an output path is the same file as an input", p,
+                             "choose another --out/--json/--html name; inputs are never overwritten")
+    if p.exists() and not overwrite:
+        raise InputError("the output file exists already", p, "remove it, choose another name, or add --overwrite")
+    parent = p.parent if str(p.parent) else Path(".")
+    if parent.exists() and not parent.is_dir():
+        raise InputError("the output folder is not a folder", parent)
+
+
+def write_atomic(path: Path, data: bytes | str) -> Path:
+    """Write ``data`` to a temporary file beside ``path``, then rename it into place."""
+    p = Path(path)
+    try:
+        p.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create the output folder ({exc.strerror or exc})", p.parent,
+                         "choose a writable --out folder") from None
+    raw = data.encode("utf-8") if isinstance(data, str) else data
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
+    except OSError as exc:
+        raise InputError(f"cannot write in the output folder ({exc.strerror or exc})", p.parent,
+                         "choose a writable --out folder") from None
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(raw)
+        os.replace(tmp, p)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+    return p

@@ -1,0 +1,46 @@
+"""Self-contained HTML report (Jinja2 template, figures embedded as PNG)."""
+
+from __future__ import annotations
+
+import datetime as _dt
+
+from jinja2 import Environment, PackageLoader, select_autoescape
+
+from . import figures
+
+
+def _env() -> Environment:
+    env = Environment(loader=PackageLoader("analyzer", "report/templates"),
+                      autoescape=select_autoescape(["html", "j2"]), trim_blocks=True, lstrip_blocks=True)
+    env.filters["f"] = fmt_num
+    env.filters["sci"] = fmt_sci
+    return env
+
+
+def fmt_num(v, digits: int = 2, unit: str = "") -> str:
+    """A number for a table cell; an en dash when not measured."""
+    if v is None:
+        return "–"
+    s = f"{v:,.{digits}f}"
+    return f"{s} {unit}".strip()
+
+
+def fmt_sci(v, digits: int = 2) -> str:
+    if v is None:
+        return "–"
+    if v == 0:
+        return "0"
+    return f"{v:.{digits}e}"
+
+
+def render_html(result, report: dict) -> str:
+    """The report page as one HTML string."""
+    figs = {
+        "spectrum": figures.to_png_base64(figures.spectrum(result)),
+        "envelopes": [figures.to_png_base64(figures.envelope_histograms(result, i))
+                      for i in range(min(len(result.bursts), 4))],
+        "ber": figures.to_png_base64(figures.ber_curve(result)),
+    }
+    tmpl = _env().get_template("report.html.j2")
+    return tmpl.render(r=report, figs=figs,
+                       generated=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))

@@ -1,0 +1,144 @@
+"""The JSON report: a stable contract (keys documented in ``report.schema.json``).
+
+Numbers that could not be measured are ``null``, never NaN.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+
+from .. import __version__
+from ..branches import template_correlation
+
+SCHEMA_PATH = Path(__file__).with_name("report.schema.json")
+SCHEMA_ID = "https://tonepair.invalid/schema/report-1.json"
+
+
+def _num(x):
+    """A finite float, or None."""
+    if x is None:
+        return None
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _pair(v):
+    return [_num(v[0]), _num(v[1])]
+
+
+def nominal_template_loss_db(tones_hz, nominal_hz, sample_rate_hz: float, window: int) -> float:
+    """Loss of templates fixed at the nominal tones against templates at the measured tones.
+
+    For a rectangular pulse at ``f`` and a template at ``f_nom`` this is
+    ``-10 log10 |D(f - f_nom)|^2``, ``D`` the normalised Dirichlet kernel over
+    the L samples of the window (-> sinc^2(df T)); the two tones are averaged
+    in energy.  Issue-level detail (measured pulse shapes) lives in the
+    diagnostics.
+    """
+    g = [abs(template_correlation((nominal_hz[i], tones_hz[i]), sample_rate_hz, window)) ** 2
+         for i in (0, 1)]
+    m = float(np.mean(g))
+    return float(-10 * np.log10(m)) if m > 0 else float("inf")
+
+
+def _ber(b):
+    if b is None:
+        return None
+    return {"reference": b.reference, "bits": int(b.bits), "errors": int(b.errors),
+            "rate": _num(b.rate), "ci95": _pair(b.ci95), "slips": int(b.slips),
+            "tone_for_one": b.tone_for_one}
+
+
+def _loss(loss):
+    if loss is None:
+        return None, [None, None]
+    return _num(loss.value), _pair(loss.ci95)
+
+
+def burst_dict(b, sample_rate_hz: float) -> dict:
+    """One entry of ``bursts[]``."""
+    lv, lci = _loss(b.loss)
+    d = {
+        "index": int(b.index),
+        "start_sample": _num(b.grid.first_start),
+        "stop_sample": _num(b.grid.stop),
+        "n_symbols": int(b.n_symbols),
+        "tones_hz": _pair(b.tones_hz),
+        "centre_offset_hz": _num(b.centre_offset_hz),
+        "deviation_hz": _num(b.deviation_hz),
+        "symbol_rate_hz": _num(b.symbol_rate_hz),
+        "tone_correlation": _num(abs(b.rho)),
+        "tone_imbalance_db": _num(b.stats.imbalance_db),
+        "nominal_template_loss_db": None,
+        "signal_gain": [_num(v) for v in b.stats.signal_gain],
+        "noise_var": [_num(v) for v in b.stats.noise_var],
+        "ebn0_db": _num(b.stats.ebn0_db),
+        "ebn0_db_ci95": _pair(b.stats.ebn0_db_ci95),
+        "ebn0_tone_db": [_num(v) for v in b.stats.ebn0_tone_db],
+        "statistics": "data-aided" if b.stats.data_aided else "decision-directed",
+        "ber": _ber(b.ber),
+        "ber_theory": _num(b.ber_theory),
+        "theory_model": b.theory_model.closed_form,
+        "implementation_loss_db": lv,
+        "implementation_loss_db_ci95": lci,
+        "power_dbfs": _num(b.power_dbfs),
+        "timing_quality": _num(b.timing_quality),
+    }
+    if b.nominal_tones_hz is not None:
+        d["nominal_template_loss_db"] = _num(nominal_template_loss_db(
+            b.tones_hz, b.nominal_tones_hz, sample_rate_hz, b.grid.window))
+    return d
+
+
+def build_report(result, checks: list[dict] | None = None, verdict: str = "not-judged") -> dict:
+    """The JSON-ready report of an :class:`~analyzer.pipeline.AnalysisResult`."""
+    cap = result.capture
+    s = result.summary
+    lv, lci = _loss(s.loss)
+    summary = {
+        "n_bursts": len(result.bursts),
+        "n_symbols": int(sum(b.n_symbols for b in result.bursts)),
+        "ebn0_db": _num(s.stats.ebn0_db) if s.stats else None,
+        "ebn0_db_ci95": _pair(s.stats.ebn0_db_ci95) if s.stats else [None, None],
+        "ber": _ber(s.ber),
+        "ber_theory": _num(s.ber_theory),
+        "implementation_loss_db": lv,
+        "implementation_loss_db_ci95": lci,
+    }
+    opts = result.options
+    return {
+        "$schema": SCHEMA_ID,
+        "tool": {"name": "tonepair", "version": __version__},
+        "capture": {
+            "path": str(cap.path),
+            "sample_rate_hz": _num(cap.sample_rate_hz),
+            "samples": int(cap.n_samples),
+            "kind": cap.kind,
+            "centre_hz": _num(cap.centre_hz),
+            "datatype": cap.datatype,
+            "noise_floor_dbfs": _num(result.noise_floor_dbfs),
+        },
+        "options": {
+            "tones_hz": None if opts.tones_hz is None else _pair(opts.tones_hz),
+            "symbol_rate_hz": _num(opts.symbol_rate_hz),
+            "reference": opts.reference,
+            "decision": opts.decision,
+        },
+        "bursts": [burst_dict(b, cap.sample_rate_hz) for b in result.bursts],
+        "summary": summary,
+        "checks": list(checks or []),
+        "verdict": verdict,
+        "warnings": list(result.warnings),
+    }
+
+
+def dumps(report: dict) -> str:
+    """Serialise with stable key order and no NaN."""
+    return json.dumps(report, indent=2, allow_nan=False) + "\n"

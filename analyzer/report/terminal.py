@@ -1,0 +1,62 @@
+"""The terminal summary: one table of the pooled result and one row per burst."""
+
+from __future__ import annotations
+
+from rich.console import Console
+from rich.table import Table
+
+
+def _f(v, d=2, unit=""):
+    return "–" if v is None else (f"{v:.{d}f} {unit}".strip())
+
+
+def _e(v):
+    return "–" if v is None else ("0" if v == 0 else f"{v:.2e}")
+
+
+def print_summary(report: dict, console: Console | None = None, written: list[str] | None = None) -> None:
+    """Print the summary of a JSON-ready report."""
+    con = console or Console()
+    s = report["summary"]
+    cap = report["capture"]
+    con.print(f"[bold]{cap['path']}[/bold]  {cap['kind']}, {cap['sample_rate_hz']:.0f} Hz, "
+              f"{cap['samples']:,} samples, noise floor {_f(cap['noise_floor_dbfs'], 1)} dBFS")
+    t = Table(title=None, show_header=True, header_style="bold")
+    t.add_column("quantity")
+    t.add_column("value", justify="right")
+    t.add_column("95% interval", justify="right")
+    lo, hi = s["ebn0_db_ci95"]
+    t.add_row("Eb/N0", _f(s["ebn0_db"], 2, "dB"), f"{_f(lo)} … {_f(hi)} dB")
+    if s["ber"]:
+        b = s["ber"]
+        t.add_row("BER", f"{_e(b['rate'])}  ({b['errors']}/{b['bits']:,})",
+                  f"{_e(b['ci95'][0])} … {_e(b['ci95'][1])}")
+        t.add_row("pattern", f"{b['reference']}, ONE = {b['tone_for_one']} tone, {b['slips']} slips", "")
+    else:
+        t.add_row("BER", "not counted (no reference pattern)", "")
+    t.add_row("BER theory", _e(s["ber_theory"]), "")
+    llo, lhi = s["implementation_loss_db_ci95"]
+    t.add_row("implementation loss", _f(s["implementation_loss_db"], 2, "dB"), f"{_f(llo)} … {_f(lhi)} dB")
+    t.add_row("bursts / symbols", f"{s['n_bursts']} / {s['n_symbols']:,}", "")
+    t.add_row("verdict", report["verdict"], "")
+    con.print(t)
+    bt = Table(show_header=True, header_style="bold")
+    for col in ("#", "start", "symbols", "tones (Hz)", "rate (Bd)", "|rho|", "imbal. dB", "Eb/N0 dB",
+                "errors/bits", "loss dB"):
+        bt.add_column(col, justify="right")
+    for b in report["bursts"][:50]:
+        eb = b["ber"]
+        bt.add_row(str(b["index"]), _f(b["start_sample"], 1), str(b["n_symbols"]),
+                   f"{_f(b['tones_hz'][0], 1)} / {_f(b['tones_hz'][1], 1)}", _f(b["symbol_rate_hz"], 2),
+                   _f(b["tone_correlation"], 3), _f(b["tone_imbalance_db"], 2), _f(b["ebn0_db"], 2),
+                   f"{eb['errors']}/{eb['bits']}" if eb else "–", _f(b["implementation_loss_db"], 2))
+    con.print(bt)
+    if len(report["bursts"]) > 50:
+        con.print(f"… {len(report['bursts']) - 50} more bursts in the JSON report")
+    for c in report.get("checks", []):
+        mark = "pass" if c["pass"] else "FAIL"
+        con.print(f"  {mark:4}  {c['name']}: {_f(c['measured'], 3)} (limit {_f(c['limit'], 3)}) {c['unit']}")
+    for w in report.get("warnings", []):
+        con.print(f"[yellow]warning:[/yellow] {w}")
+    for path in written or []:
+        con.print(f"wrote {path}")
