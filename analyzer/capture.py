@@ -36,7 +36,7 @@ context is faded in/out with a half-Hann taper, so that the cut-off context
 does not ring into the block.  Away from the file edges (more than
 ``2 * HILBERT_MARGIN`` samples in) a block read then matches a transform of
 the whole file to better than 1e-6 of full scale for tones, and for broadband noise
-of rms ``s`` to about ``3e-3 s`` rms (1e-4 for a typical noise floor): that is
+of rms ``s`` to about ``4e-3 s`` rms (1e-4 for a typical noise floor): that is
 the part of the ideal transform (whose kernel decays only as ``1/(pi n)``)
 that comes from samples beyond the context.  Nearer the start or end of the
 file the transform sees the edge of the recording, as any transform of a
@@ -474,11 +474,13 @@ def _open_raw(path: Path, rate, fmt) -> Capture:
     missing = [opt for opt, v in (("--rate", rate), ("--format", fmt)) if v is None]
     if missing:
         guess = path.suffix.lower().lstrip(".")
-        hint = f"give {' and '.join(missing)} (formats: {', '.join(RAW_FORMATS)}, little endian)"
+        words = {"--rate": "--rate HZ",
+                 "--format": f"--format FMT (one of {', '.join(RAW_FORMATS)}, little endian)"}
+        hint = "give " + " and ".join(words[m] for m in missing)
         if guess in RAW_FORMATS and fmt is None:
             hint += f"; the name suggests --format {guess}"
-        raise InputError("not a SigMF, WAV or FLAC file, so it is read as raw I/Q samples, which needs "
-                         + " and ".join(missing), path, hint)
+        raise InputError("not a SigMF, WAV or FLAC file; raw I/Q samples need " + " and ".join(missing),
+                         path, hint)
     name = str(fmt).lower().removesuffix("_le")
     if name not in RAW_FORMATS:
         raise InputError(f"unknown raw format {fmt!r}", path, f"use --format {'|'.join(RAW_FORMATS)}")

@@ -373,7 +373,7 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     sps = fs / rs
     band = (f0 - rs, f1 + rs)
     frame = acquire.frame_length(fs, rs)
-    nfft_psd = int(min(4096, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
+    nfft_psd = int(min(1024, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
         power, noise, freqs, psd = _power_trace(cap, band, frame, _noise_bands(cap, band, rs), nfft_psd,

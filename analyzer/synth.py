@@ -171,8 +171,9 @@ def synthesize(p: SynthParams) -> SynthResult:
     -------
     SynthResult
         Samples, bits and truth.  The signal amplitude ``A`` is chosen so that
-        the stronger tone peaks at 0.25 of full scale (leaving head room for
-        noise in integer formats).
+        the stronger tone peaks at 0.25 of full scale, or lower when needed to
+        keep signal plus five noise standard deviations below 0.9 of full
+        scale (head room for integer formats).
     """
     rng = np.random.default_rng(p.seed)
     fs = p.sample_rate_hz
@@ -182,7 +183,11 @@ def synthesize(p: SynthParams) -> SynthResult:
     starts = p.start_offset_samples + np.arange(p.n_bursts) * (burst_len + p.gap_samples)
     total = int(np.ceil(starts[-1] + burst_len)) + int(p.tail_samples)
 
-    amplitude = 0.25 / max(p.tone_amplitudes)
+    # Peak of the stronger tone at 0.25 of full scale, lowered when the noise is
+    # strong so that signal + 5 sigma of noise per component stays below 0.9
+    # (head room for integer formats).
+    per_unit = _noise_sigma(p, 1.0) / (1.0 if p.real else np.sqrt(2.0))
+    amplitude = min(0.25 / max(p.tone_amplitudes), 0.9 / (max(p.tone_amplitudes) + 5.0 * per_unit))
     tones = np.asarray(p.tones_hz, dtype=float) + p.centre_offset_hz
     amps = np.asarray(p.tone_amplitudes, dtype=float) * amplitude
     gains = np.asarray(p.burst_gains_db if p.burst_gains_db else (0.0,), dtype=float)

@@ -58,8 +58,8 @@ def spectrum(result):
         ax.plot([], [], color=INK, linestyle=":", label="nominal")
     ax.set_xlabel("frequency (kHz)" + (" audio" if result.capture.kind == "audio" else " from centre"), fontsize=8)
     ax.set_ylabel("power (dB, peak = 0)", fontsize=8)
-    ax.set_ylim(max(p.min(), -80), 3)
-    ax.legend(fontsize=7, loc="lower right", frameon=False)
+    ax.set_ylim(max(np.percentile(p, 1) - 3, -80), 8)
+    ax.legend(fontsize=7, loc="upper right", frameon=True, facecolor="white", edgecolor=GRID)
     _style(ax)
     return fig
 
@@ -114,8 +114,12 @@ def ber_curve(result):
     x = np.linspace(0, 16, 200)
     ax.semilogy(x, theory.ber_orthogonal(10 ** (x / 10)), color=THEORY, linewidth=1.4,
                 label="orthogonal, equal energy: ½·exp(−Eb/2N0)")
-    models = {b.theory_model for b in result.bursts if b.theory_model.closed_form != "orthogonal"}
-    for m in list(models)[:3]:
+    models = {}
+    for b in result.bursts:
+        m = b.theory_model
+        if m.closed_form != "orthogonal":
+            models.setdefault((m.closed_form, round(m.tone_correlation, 2), round(m.imbalance_db, 1)), m)
+    for m in list(models.values())[:3]:
         ax.semilogy(x, theory.ber_expected(10 ** (x / 10), m), color=THEORY, linestyle="--", linewidth=1.0,
                     label=f"{m.closed_form} (|ρ|={m.tone_correlation:.2f}, {m.imbalance_db:+.1f} dB)")
     pts = [(b.stats, b.ber) for b in result.bursts if b.ber is not None]

@@ -17,6 +17,8 @@ def _e(v):
 def print_summary(report: dict, console: Console | None = None, written: list[str] | None = None) -> None:
     """Print the summary of a JSON-ready report."""
     con = console or Console()
+    if not con.is_terminal:
+        con = Console(width=max(con.width, 120), force_terminal=False)
     s = report["summary"]
     cap = report["capture"]
     con.print(f"[bold]{cap['path']}[/bold]  {cap['kind']}, {cap['sample_rate_hz']:.0f} Hz, "
@@ -41,7 +43,7 @@ def print_summary(report: dict, console: Console | None = None, written: list[st
     t.add_row("verdict", report["verdict"], "")
     con.print(t)
     bt = Table(show_header=True, header_style="bold")
-    for col in ("#", "start", "symbols", "tones (Hz)", "rate (Bd)", "|rho|", "imbal. dB", "Eb/N0 dB",
+    for col in ("#", "start sample", "symbols", "tones (Hz)", "rate (Bd)", "|rho|", "imbal. dB", "Eb/N0 dB",
                 "errors/bits", "loss dB"):
         bt.add_column(col, justify="right")
     for b in report["bursts"][:50]:
