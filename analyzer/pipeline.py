@@ -13,7 +13,7 @@ from typing import Callable
 
 import numpy as np
 
-from . import acquire, branches, decide, estimate, prbs, theory
+from . import acquire, branches, decide, diagnostics, estimate, prbs, theory
 from .capture import Capture, open_capture
 from .errors import CaptureWarning, InputError
 
@@ -79,6 +79,10 @@ class BurstResult:
     loss: theory.LossEstimate | None
     power_dbfs: float
     nominal_tones_hz: tuple[float, float] | None
+    checks: tuple[diagnostics.ModelCheck, ...] = ()
+    trend: diagnostics.Trend | None = None
+    loss_parts: diagnostics.LossParts | None = None
+    blind_ber: tuple[float, tuple[float, float]] | None = None
 
     @property
     def n_symbols(self) -> int:
@@ -247,8 +251,7 @@ def _ber_count(ec: prbs.ErrorCount, low_is_one: bool) -> BerCount:
 
 
 def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
-    idx = grid.first_samples[:, None] - x_start + np.arange(grid.window)[None, :]
-    return x[idx]
+    return branches.symbol_matrix(x, x_start, grid)[0]
 
 
 # --------------------------------------------------------------------------- one burst
@@ -324,13 +327,19 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
     p = float(np.mean(np.abs(_rows(x, x_start, grid)) ** 2)) / full_scale
+    checks = tuple(diagnostics.model_checks(out.z, sent, stats.signal_gain, stats.noise_var, abs(rho)))
+    trend = diagnostics.ebn0_trend(out.z, sent, scale)
+    parts = None
+    if loss is not None and ber is not None and ber.errors > 0:
+        parts = diagnostics.loss_parts(loss.value, ber.rate, model)
+    blind = diagnostics.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if np.isfinite(stats.ebn0_db) else None
     return BurstResult(
         index=index, grid=grid, tones_hz=(float(tones[0]), float(tones[1])),
         symbol_rate_hz=float(fs / grid.samples_per_symbol), timing_quality=float(tm.line_snr),
         outputs=out, decisions=dec, sent=sent, stats=stats, moments=mom, rho=rho, ber=ber,
         ber_theory=ber_th, theory_model=model, loss=loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
-        nominal_tones_hz=opts.tones_hz)
+        nominal_tones_hz=opts.tones_hz, checks=checks, trend=trend, loss_parts=parts, blind_ber=blind)
 
 
 def _summary(bursts: list[BurstResult]) -> Summary:

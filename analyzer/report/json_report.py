@@ -91,6 +91,19 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "power_dbfs": _num(b.power_dbfs),
         "timing_quality": _num(b.timing_quality),
     }
+    d["diagnostics"] = {
+        "model_checks": [{"name": c.name, "statistic": _num(c.statistic), "p_value": _num(c.p_value),
+                          "flagged": c.flagged, "meaning": c.meaning} for c in b.checks],
+        "ebn0_trend": None if b.trend is None else {
+            "block_ebn0_db": [_num(v) for v in b.trend.block_ebn0_db],
+            "slope_db_per_block": _num(b.trend.slope_db_per_block), "p_value": _num(b.trend.p_value),
+            "flagged": b.trend.flagged, "meaning": b.trend.meaning},
+        "blind_ber": None if b.blind_ber is None else _num(b.blind_ber[0]),
+        "blind_ber_ci95": [None, None] if b.blind_ber is None else _pair(b.blind_ber[1]),
+        "loss_parts_db": None if b.loss_parts is None else {
+            "correlation": _num(b.loss_parts.correlation_db), "imbalance": _num(b.loss_parts.imbalance_db),
+            "rest": _num(b.loss_parts.rest_db)},
+    }
     if b.nominal_tones_hz is not None:
         d["nominal_template_loss_db"] = _num(nominal_template_loss_db(
             b.tones_hz, b.nominal_tones_hz, sample_rate_hz, b.grid.window))
