@@ -31,16 +31,25 @@ def _progress_bar(quiet: bool):
     return prog, cb
 
 
-def report_paths(capture: Path, out: Path, name: str | None, json_path: Path | None,
-                 html_path: Path | None) -> dict[str, Path]:
-    """Where each report goes."""
+def _base_name(capture: Path, name: str | None) -> str:
     if name:
-        base = name
-    elif capture.name.endswith((".sigmf-meta", ".sigmf-data")):
-        base = capture.name[:-len(".sigmf-meta")]
-    else:
-        base = capture.stem
-    return {"json": json_path or out / f"{base}.json", "html": html_path or out / f"{base}.html"}
+        return name
+    if capture.name.endswith((".sigmf-meta", ".sigmf-data")):
+        return capture.name[:-len(".sigmf-meta")]
+    return capture.stem
+
+
+def report_paths(capture: Path, out: Path, name: str | None, json_path: Path | None,
+                 html_path: Path | None, pdf_path: Path | None = None,
+                 annotate: bool = False) -> dict[str, Path]:
+    """Where each report goes (PDF and annotated SigMF metadata only when asked for)."""
+    base = _base_name(capture, name)
+    paths = {"json": json_path or out / f"{base}.json", "html": html_path or out / f"{base}.html"}
+    if pdf_path is not None:
+        paths["pdf"] = pdf_path
+    if annotate:
+        paths["annotated"] = out / f"{base}.annotated.sigmf-meta"
+    return paths
 
 
 def _inputs(capture: Path) -> list[Path]:
@@ -53,17 +62,50 @@ def _inputs(capture: Path) -> list[Path]:
     return out
 
 
-def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision: str, out: Path,
+def link_options(spec_path: Path | None, tones, baud, reference: str | None):
+    """Options given on the command line win; the spec's [link] fills the rest."""
+    from .spec import load_spec
+
+    spec = load_spec(spec_path) if spec_path is not None else None
+    if spec is not None:
+        tones = tones if tones is not None else spec.link.tones_hz
+        baud = baud if baud is not None else spec.link.symbol_rate_hz
+        reference = reference if reference is not None else spec.link.reference
+    return spec, tones, baud, reference or "auto"
+
+
+def write_all(items: list[tuple[Path, bytes | str]]) -> list[Path]:
+    """Write every (path, data) atomically; on any failure remove those already written."""
+    written: list[Path] = []
+    try:
+        for path, data in items:
+            written.append(write_atomic(path, data))
+    except BaseException:
+        for p in written:
+            Path(p).unlink(missing_ok=True)
+        raise
+    return written
+
+
+def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, decision: str, out: Path,
                 name: str | None, json_path: Path | None, html_path: Path | None, overwrite: bool,
-                quiet: bool) -> int:
-    """Analyse, write the reports, print the summary; return the exit code."""
+                quiet: bool, spec_path: Path | None = None, pdf_path: Path | None = None,
+                annotate: bool = False) -> int:
+    """Analyse, judge against the spec, write the reports, print the summary; return the exit code."""
     from .report.html import render_html
     from .report.terminal import print_summary
 
-    paths = report_paths(Path(capture), Path(out), name, json_path, html_path)
-    inputs = _inputs(Path(capture))
+    spec, tones, baud, reference = link_options(spec_path, tones, baud, reference)
+    capture = Path(capture)
+    if annotate and not capture.name.endswith((".sigmf-meta", ".sigmf-data")):
+        raise InputError("--annotate needs a SigMF capture (.sigmf-meta/.sigmf-data)", capture,
+                         "annotations are written into a copy of the SigMF metadata; other formats have none")
+    paths = report_paths(capture, Path(out), name, json_path, html_path, pdf_path, annotate)
+    inputs = _inputs(capture)
     if reference.startswith("bits:"):
         inputs.append(Path(reference[5:]))
+    if spec_path is not None:
+        inputs.append(Path(spec_path))
     for p in paths.values():
         check_output(p, inputs, overwrite)
     prog, cb = _progress_bar(quiet)
@@ -75,17 +117,23 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision:
         result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
                          reference=reference, decision=decision)
     report = json_report.build_report(result)
+    if spec is not None:
+        from .spec import judge
+
+        checks, verdict = judge(report, spec)
+        report = json_report.build_report(result, checks, verdict)
     # render everything before writing anything, so a failure leaves no partial set
-    html = render_html(result, report)
-    text = json_report.dumps(report)
-    written = []
-    try:
-        written.append(write_atomic(paths["json"], text))
-        written.append(write_atomic(paths["html"], html))
-    except BaseException:
-        for p in written:
-            Path(p).unlink(missing_ok=True)
-        raise
+    items: list[tuple[Path, bytes | str]] = [(paths["json"], json_report.dumps(report)),
+                                             (paths["html"], render_html(result, report))]
+    if "pdf" in paths:
+        from .report.pdf import render_pdf
+
+        items.append((paths["pdf"], render_pdf(result, report)))
+    if "annotated" in paths:
+        from .report.annotate import annotated_metadata
+
+        items.append((paths["annotated"], annotated_metadata(result, report)))
+    written = write_all(items)
     for w in result.warnings:
         print(f"warning: {w}", file=sys.stderr)
     if not quiet:
