@@ -157,6 +157,35 @@ def synth(
     typer.echo(f"wrote {path}")
 
 
+@app.command()
+def sweep(
+    captures: list[Path] = typer.Argument(..., help="Captures of one link at several levels."),
+    tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
+    baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate, Hz."),
+    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
+                                            help="Test pattern (default auto): none is not useful here."),
+    spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
+                                        help="Take --tones/--baud/--reference from the spec's [link]."),
+    out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
+    name: str = typer.Option("sweep", "--name", help="Base name of the report files."),
+    target_ber: float = typer.Option(1e-3, "--target-ber", help="BER at which to state the Eb/N0 needed."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
+    quiet: bool = typer.Option(False, "--quiet", help="No summary on the terminal."),
+):
+    """Fit one implementation loss across captures at several levels; write JSON, HTML and PDF."""
+    from .commands import run_sweep
+
+    try:
+        code = run_sweep(captures=captures, tones=_pair(tones, "--tones"), baud=baud, reference=reference,
+                         spec_path=spec, out=out, name=name, target_ber=target_ber, overwrite=overwrite,
+                         quiet=quiet)
+    except typer.Exit:
+        raise
+    except Exception as exc:  # noqa: BLE001
+        _fail(exc)
+    raise typer.Exit(code)
+
+
 def main() -> None:
     """Console-script entry point."""
     try:

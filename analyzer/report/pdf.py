@@ -139,3 +139,26 @@ def render_pdf(result, report: dict) -> bytes:
     pages += [figures.envelope_histograms(result, i) for i in range(min(len(result.bursts), 4))]
     pages.append(figures.ber_curve(result))
     return _pdf_bytes(pages, f"tonepair report: {report['capture']['path']}")
+
+
+def render_sweep_pdf(sweep: dict) -> bytes:
+    """A level sweep as PDF bytes: result page, then the waterfall figure."""
+    generated = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    fig = plt.figure(figsize=A4)
+    fig.text(0.08, 0.95, "Level sweep: bit error rate against Eb/N0", fontsize=16, weight="bold", color=INK)
+    fig.text(0.08, 0.925, f"{sweep['tool']['name']} {sweep['tool']['version']} · {generated} · "
+             f"{len(sweep['points'])} captures", fontsize=8, color="#5a6672")
+    fig.text(0.08, 0.87, f"Implementation loss: {fmt_num(sweep['implementation_loss_db'], 2, 'dB')}", fontsize=18,
+             weight="bold", color=INK)
+    fig.text(0.08, 0.845, f"95%: {_ci(sweep['implementation_loss_db_ci95'])} dB", fontsize=9, color=INK)
+    fig.text(0.08, 0.815, f"Eb/N0 needed for BER {fmt_sci(sweep['target_ber'])}: "
+             f"{fmt_num(sweep['ebn0_at_target_db'], 2, 'dB')} (95%: {_ci(sweep['ebn0_at_target_db_ci95'])} dB; "
+             f"ideal {fmt_num(sweep['ebn0_ideal_at_target_db'], 2, 'dB')})", fontsize=9, color=INK)
+    rows = [[p["path"][-40:], fmt_num(p["ebn0_db"], 2), _ci(p["ebn0_db_ci95"]), f"{p['errors']} / {p['bits']:,}",
+             fmt_sci(p["ber"]), _ci(p["ber_ci95"], sci=True), "yes" if p["used"] else "no"]
+            for p in sweep["points"][:30]]
+    ax = fig.add_axes([0.05, 0.3, 0.9, 0.48])
+    _table(ax, rows, ["capture", "Eb/N0 dB", "95% dB", "errors/bits", "BER", "95%", "in fit"],
+           [0.3, 0.09, 0.14, 0.13, 0.09, 0.17, 0.07], fontsize=6.5)
+    fig.text(0.08, 0.2, sweep["method"], fontsize=7, color="#5a6672", wrap=True)
+    return _pdf_bytes([fig, figures.waterfall(sweep)], "tonepair level sweep")
