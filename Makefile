@@ -3,6 +3,7 @@ PYTHON ?= python3
 VENV   := .venv
 BIN    := $(VENV)/bin
 DEMO_CAPTURE := sample_captures/beacon_demo.sigmf-meta
+DEMO_SPEC    := sample_captures/beacon_demo.spec.toml
 
 .PHONY: venv venv-test demo test clean
 
@@ -17,8 +18,8 @@ venv-test: $(BIN)/python
 	$(BIN)/python -m pip install --quiet -e '.[test]'
 
 demo: venv
-	MPLBACKEND=Agg $(BIN)/tonepair analyze $(DEMO_CAPTURE) --tones -2500,2500 --baud 5000 \
-		--reference auto --out reports --name demo --overwrite
+	MPLBACKEND=Agg $(BIN)/tonepair analyze $(DEMO_CAPTURE) --out reports --name demo --overwrite \
+		--spec $(DEMO_SPEC) --pdf reports/demo.pdf
 
 test: venv-test
 	MPLBACKEND=Agg $(BIN)/python -m pytest -q

@@ -80,9 +80,10 @@ def analyze(
     rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help="Sample rate of a raw file."),
     fmt: Optional[RawFormat] = typer.Option(None, "--format", help="Sample format of a raw file "
                                                                   "(little-endian interleaved I/Q)."),
-    reference: str = typer.Option("auto", "--reference", metavar="REF",
-                                  help="Test pattern: auto (detect an ITU-T O.150 PRBS), none, PN7, PN9, PN11, "
-                                       "PN15, PN23, or bits:FILE (text of 0/1, repeated)."),
+    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
+                                            help="Test pattern: auto (detect an ITU-T O.150 PRBS; the default), "
+                                                 "none, PN7, PN9, PN11, PN15, PN23, or bits:FILE (text of 0/1, "
+                                                 "repeated)."),
     decision: str = typer.Option("square-law", "--decision", help="square-law, or likelihood (weighs each "
                                                                   "envelope by its own tone energy)."),
     out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
@@ -90,10 +91,17 @@ def analyze(
                                                             "(default: the capture's name)."),
     json_path: Optional[Path] = typer.Option(None, "--json", help="JSON report path (default OUT/NAME.json)."),
     html_path: Optional[Path] = typer.Option(None, "--html", help="HTML report path (default OUT/NAME.html)."),
+    spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
+                                        help="Judge against this spec (exit 1 if a limit fails). Its [link] "
+                                             "supplies --tones/--baud/--reference when those are not given."),
+    pdf_path: Optional[Path] = typer.Option(None, "--pdf", metavar="FILE", help="Also write a PDF report."),
+    annotate: bool = typer.Option(False, "--annotate",
+                                  help="SigMF captures: write OUT/NAME.annotated.sigmf-meta, a copy of the "
+                                       "metadata with one annotation per burst (the input is not changed)."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
 ):
-    """Analyse one capture and write JSON and HTML reports.
+    """Analyse one capture and write JSON and HTML reports (and PDF / SigMF annotations when asked).
 
     Example:  tonepair analyze sample_captures/beacon_demo.sigmf-meta --tones -2500,2500 --baud 5000
     """
@@ -102,7 +110,8 @@ def analyze(
     try:
         code = run_analyze(capture=capture, tones=_pair(tones, "--tones"), baud=baud, rate=rate,
                            fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
-                           name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet)
+                           name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet,
+                           spec_path=spec, pdf_path=pdf_path, annotate=annotate)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001 - every failure becomes one error line
@@ -146,6 +155,35 @@ def synth(
     except Exception as exc:  # noqa: BLE001
         _fail(exc)
     typer.echo(f"wrote {path}")
+
+
+@app.command()
+def sweep(
+    captures: list[Path] = typer.Argument(..., help="Captures of one link at several levels."),
+    tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
+    baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate, Hz."),
+    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
+                                            help="Test pattern (default auto): none is not useful here."),
+    spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
+                                        help="Take --tones/--baud/--reference from the spec's [link]."),
+    out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
+    name: str = typer.Option("sweep", "--name", help="Base name of the report files."),
+    target_ber: float = typer.Option(1e-3, "--target-ber", help="BER at which to state the Eb/N0 needed."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
+    quiet: bool = typer.Option(False, "--quiet", help="No summary on the terminal."),
+):
+    """Fit one implementation loss across captures at several levels; write JSON, HTML and PDF."""
+    from .commands import run_sweep
+
+    try:
+        code = run_sweep(captures=captures, tones=_pair(tones, "--tones"), baud=baud, reference=reference,
+                         spec_path=spec, out=out, name=name, target_ber=target_ber, overwrite=overwrite,
+                         quiet=quiet)
+    except typer.Exit:
+        raise
+    except Exception as exc:  # noqa: BLE001
+        _fail(exc)
+    raise typer.Exit(code)
 
 
 def main() -> None:

@@ -31,16 +31,25 @@ def _progress_bar(quiet: bool):
     return prog, cb
 
 
-def report_paths(capture: Path, out: Path, name: str | None, json_path: Path | None,
-                 html_path: Path | None) -> dict[str, Path]:
-    """Where each report goes."""
+def _base_name(capture: Path, name: str | None) -> str:
     if name:
-        base = name
-    elif capture.name.endswith((".sigmf-meta", ".sigmf-data")):
-        base = capture.name[:-len(".sigmf-meta")]
-    else:
-        base = capture.stem
-    return {"json": json_path or out / f"{base}.json", "html": html_path or out / f"{base}.html"}
+        return name
+    if capture.name.endswith((".sigmf-meta", ".sigmf-data")):
+        return capture.name[:-len(".sigmf-meta")]
+    return capture.stem
+
+
+def report_paths(capture: Path, out: Path, name: str | None, json_path: Path | None,
+                 html_path: Path | None, pdf_path: Path | None = None,
+                 annotate: bool = False) -> dict[str, Path]:
+    """Where each report goes (PDF and annotated SigMF metadata only when asked for)."""
+    base = _base_name(capture, name)
+    paths = {"json": json_path or out / f"{base}.json", "html": html_path or out / f"{base}.html"}
+    if pdf_path is not None:
+        paths["pdf"] = pdf_path
+    if annotate:
+        paths["annotated"] = out / f"{base}.annotated.sigmf-meta"
+    return paths
 
 
 def _inputs(capture: Path) -> list[Path]:
@@ -53,17 +62,50 @@ def _inputs(capture: Path) -> list[Path]:
     return out
 
 
-def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision: str, out: Path,
+def link_options(spec_path: Path | None, tones, baud, reference: str | None):
+    """Options given on the command line win; the spec's [link] fills the rest."""
+    from .spec import load_spec
+
+    spec = load_spec(spec_path) if spec_path is not None else None
+    if spec is not None:
+        tones = tones if tones is not None else spec.link.tones_hz
+        baud = baud if baud is not None else spec.link.symbol_rate_hz
+        reference = reference if reference is not None else spec.link.reference
+    return spec, tones, baud, reference or "auto"
+
+
+def write_all(items: list[tuple[Path, bytes | str]]) -> list[Path]:
+    """Write every (path, data) atomically; on any failure remove those already written."""
+    written: list[Path] = []
+    try:
+        for path, data in items:
+            written.append(write_atomic(path, data))
+    except BaseException:
+        for p in written:
+            Path(p).unlink(missing_ok=True)
+        raise
+    return written
+
+
+def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, decision: str, out: Path,
                 name: str | None, json_path: Path | None, html_path: Path | None, overwrite: bool,
-                quiet: bool) -> int:
-    """Analyse, write the reports, print the summary; return the exit code."""
+                quiet: bool, spec_path: Path | None = None, pdf_path: Path | None = None,
+                annotate: bool = False) -> int:
+    """Analyse, judge against the spec, write the reports, print the summary; return the exit code."""
     from .report.html import render_html
     from .report.terminal import print_summary
 
-    paths = report_paths(Path(capture), Path(out), name, json_path, html_path)
-    inputs = _inputs(Path(capture))
+    spec, tones, baud, reference = link_options(spec_path, tones, baud, reference)
+    capture = Path(capture)
+    if annotate and not capture.name.endswith((".sigmf-meta", ".sigmf-data")):
+        raise InputError("--annotate needs a SigMF capture (.sigmf-meta/.sigmf-data)", capture,
+                         "annotations are written into a copy of the SigMF metadata; other formats have none")
+    paths = report_paths(capture, Path(out), name, json_path, html_path, pdf_path, annotate)
+    inputs = _inputs(capture)
     if reference.startswith("bits:"):
         inputs.append(Path(reference[5:]))
+    if spec_path is not None:
+        inputs.append(Path(spec_path))
     for p in paths.values():
         check_output(p, inputs, overwrite)
     prog, cb = _progress_bar(quiet)
@@ -75,17 +117,23 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision:
         result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
                          reference=reference, decision=decision)
     report = json_report.build_report(result)
+    if spec is not None:
+        from .spec import judge
+
+        checks, verdict = judge(report, spec)
+        report = json_report.build_report(result, checks, verdict)
     # render everything before writing anything, so a failure leaves no partial set
-    html = render_html(result, report)
-    text = json_report.dumps(report)
-    written = []
-    try:
-        written.append(write_atomic(paths["json"], text))
-        written.append(write_atomic(paths["html"], html))
-    except BaseException:
-        for p in written:
-            Path(p).unlink(missing_ok=True)
-        raise
+    items: list[tuple[Path, bytes | str]] = [(paths["json"], json_report.dumps(report)),
+                                             (paths["html"], render_html(result, report))]
+    if "pdf" in paths:
+        from .report.pdf import render_pdf
+
+        items.append((paths["pdf"], render_pdf(result, report)))
+    if "annotated" in paths:
+        from .report.annotate import annotated_metadata
+
+        items.append((paths["annotated"], annotated_metadata(result, report)))
+    written = write_all(items)
     for w in result.warnings:
         print(f"warning: {w}", file=sys.stderr)
     if not quiet:
@@ -117,3 +165,84 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
     base = Path(str(out).removesuffix(".sigmf-meta").removesuffix(".sigmf-data").removesuffix(".sigmf"))
     return writers.write_sigmf(base, res.samples, rate, datatype=datatype, centre_hz=centre, truth=res.truth,
                                description="tonepair synthetic FSK bursts", overwrite=overwrite)
+
+
+SWEEP_METHOD = ("Implementation loss L minimises the sum of w_i (Eb/N0_i - L - R(BER_i))^2, R the Eb/N0 ideal "
+                "noncoherent orthogonal BFSK needs (1/2 exp(-Eb/2N0)); weights from the 95% intervals of Eb/N0 and "
+                "BER; interval widened when the points scatter more than their intervals. Points with no bit "
+                "errors are left out of the fit (they only bound L from above).")
+
+
+def sweep_report(points, fit) -> dict:
+    """JSON-ready report of a level sweep."""
+    from . import __version__, theory
+    from .report.json_report import _num, _pair
+
+    out = []
+    for p, used, res, ub in zip(points, fit.used, fit.residuals_db, fit.upper_bounds_db):
+        out.append({"path": p.path, "ebn0_db": _num(p.ebn0_db), "ebn0_db_ci95": _pair(p.ebn0_db_ci95),
+                    "ber": _num(p.ber), "ber_ci95": _pair(p.ber_ci95), "errors": int(p.errors),
+                    "bits": int(p.bits), "used": bool(used), "residual_db": _num(res),
+                    "loss_upper_bound_db": _num(ub)})
+    return {"tool": {"name": "tonepair", "version": __version__},
+            "implementation_loss_db": _num(fit.loss_db), "implementation_loss_db_ci95": _pair(fit.loss_db_ci95),
+            "target_ber": fit.target_ber, "ebn0_at_target_db": _num(fit.ebn0_at_target_db),
+            "ebn0_at_target_db_ci95": _pair(fit.ebn0_at_target_db_ci95),
+            "ebn0_ideal_at_target_db": _num(theory.ebn0_required_db(fit.target_ber)),
+            "chi2": _num(fit.chi2), "method": SWEEP_METHOD, "points": out}
+
+
+def run_sweep(captures: list[Path], tones, baud, reference: str | None, spec_path: Path | None, out: Path,
+              name: str, target_ber: float, overwrite: bool, quiet: bool) -> int:
+    """Analyse each capture of a level sweep, fit one implementation loss, write JSON/HTML/PDF."""
+    import datetime as _dt
+
+    from jinja2 import Environment, PackageLoader, select_autoescape
+
+    from .report import figures
+    from .report.html import fmt_num, fmt_sci
+    from .report.pdf import render_sweep_pdf
+    from .sweep import SweepPoint, fit_loss
+
+    if not captures:
+        raise InputError("sweep needs at least one capture", None, "give CAPTURE...")
+    _spec, tones, baud, reference = link_options(spec_path, tones, baud, reference)
+    out = Path(out)
+    paths = {k: out / f"{name}.{k}" for k in ("json", "html", "pdf")}
+    inputs = [q for c in captures for q in _inputs(Path(c))]
+    if spec_path is not None:
+        inputs.append(Path(spec_path))
+    for p in paths.values():
+        check_output(p, inputs, overwrite)
+    points = []
+    for c in captures:
+        res = analyze(c, tones_hz=tones, symbol_rate_hz=baud, reference=reference)
+        s = res.summary
+        if s.ber is None:
+            raise InputError("no bit errors could be counted (no reference pattern found)", c,
+                             "give --reference (e.g. PN9) or a spec with [link] reference")
+        st = s.stats
+        points.append(SweepPoint(path=str(c), ebn0_db=float(st.ebn0_db),
+                                 ebn0_db_ci95=(float(st.ebn0_db_ci95[0]), float(st.ebn0_db_ci95[1])),
+                                 errors=int(s.ber.errors), bits=int(s.ber.bits)))
+        for w in res.warnings:
+            print(f"warning: {w}", file=sys.stderr)
+    fit = fit_loss(points, target_ber)
+    report = sweep_report(points, fit)
+    env = Environment(loader=PackageLoader("analyzer", "report/templates"),
+                      autoescape=select_autoescape(["html", "j2"]), trim_blocks=True, lstrip_blocks=True)
+    env.filters["f"] = fmt_num
+    env.filters["sci"] = fmt_sci
+    html = env.get_template("sweep.html.j2").render(
+        r=report, fig=figures.to_png_base64(figures.waterfall(report)),
+        generated=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))
+    written = write_all([(paths["json"], json_report.dumps(report)), (paths["html"], html),
+                         (paths["pdf"], render_sweep_pdf(report))])
+    if not quiet:
+        ci = report["implementation_loss_db_ci95"]
+        print(f"implementation loss {fmt_num(report['implementation_loss_db'], 2, 'dB')} "
+              f"(95% {fmt_num(ci[0], 2)} … {fmt_num(ci[1], 2)} dB); Eb/N0 for BER {fmt_sci(target_ber)}: "
+              f"{fmt_num(report['ebn0_at_target_db'], 2, 'dB')}")
+        for p in written:
+            print(f"wrote {p}")
+    return 0

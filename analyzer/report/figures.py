@@ -143,3 +143,44 @@ def ber_curve(result):
     _style(ax)
     ax.legend(fontsize=7, frameon=False, loc="lower left")
     return fig
+
+
+def waterfall(sweep: dict):
+    """BER against Eb/N0 for a sweep: theory, the measured points with both intervals,
+    and the theory curve shifted by the fitted implementation loss.
+
+    ``sweep`` is the JSON-ready sweep report (see :func:`analyzer.commands.sweep_report`).
+    """
+    fig, ax = plt.subplots(figsize=(6.4, 4.2))
+    pts = sweep["points"]
+    e_all = [p["ebn0_db"] for p in pts if p["ebn0_db"] is not None]
+    x_hi = max(16.0, (max(e_all) + 2.0) if e_all else 16.0)
+    x = np.linspace(0, x_hi, 300)
+    ideal = theory.ber_orthogonal(10 ** (x / 10))
+    ax.semilogy(x, ideal, color=THEORY, linewidth=1.4, label="ideal: ½·exp(−Eb/2N0)")
+    L = sweep["implementation_loss_db"]
+    if L is not None:
+        ax.semilogy(x + L, ideal, color=TONE_COLOURS[1], linewidth=1.2, linestyle="--",
+                    label=f"fitted: ideal shifted by L = {L:+.2f} dB")
+        t, et = sweep["target_ber"], sweep["ebn0_at_target_db"]
+        ax.axhline(t, color=GRID, linewidth=0.8)
+        ax.plot([et], [t], marker="x", color=TONE_COLOURS[1], markersize=7)
+    for k, p in enumerate(pts):
+        if p["ebn0_db"] is None or p["bits"] == 0:
+            continue
+        zero = p["errors"] == 0
+        y = p["ber_ci95"][1] if zero else p["ber"]
+        lo, hi = p["ebn0_db_ci95"]
+        xerr = [[p["ebn0_db"] - (lo if lo is not None else p["ebn0_db"])],
+                [(hi if hi is not None else p["ebn0_db"]) - p["ebn0_db"]]]
+        yerr = [[0 if zero else max(y - p["ber_ci95"][0], 0)], [0 if zero else max(p["ber_ci95"][1] - y, 0)]]
+        ax.errorbar([p["ebn0_db"]], [y], xerr=xerr, yerr=yerr, fmt="v" if zero else "o", color=INK,
+                    markersize=4, capsize=3, linewidth=1.0,
+                    label=("measured (95% intervals)" if k == 0 else None))
+    ax.set_xlabel("Eb/N0 (dB)", fontsize=8)
+    ax.set_ylabel("bit error rate", fontsize=8)
+    ax.set_ylim(1e-7, 0.6)
+    ax.set_xlim(0, x_hi)
+    _style(ax)
+    ax.legend(fontsize=7, frameon=False, loc="lower left")
+    return fig

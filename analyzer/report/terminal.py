@@ -57,7 +57,9 @@ def print_summary(report: dict, console: Console | None = None, written: list[st
         con.print(f"… {len(report['bursts']) - 50} more bursts in the JSON report")
     for c in report.get("checks", []):
         mark = "pass" if c["pass"] else "FAIL"
-        con.print(f"  {mark:4}  {c['name']}: {_f(c['measured'], 3)} (limit {_f(c['limit'], 3)}) {c['unit']}")
+        marg = " (marginal)" if c.get("marginal") else ""
+        con.print(f"  {mark:4}{marg}  {c['name']}: {_f(c['measured'], 3)} (limit {_f(c['limit'], 3)}) {c['unit']}"
+                  + (f"  - {c['note']}" if c.get("note") else ""), markup=False)
     for w in report.get("warnings", []):
         con.print(f"[yellow]warning:[/yellow] {w}")
     for path in written or []:
