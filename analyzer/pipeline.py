@@ -304,6 +304,15 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     ref = _resolve_reference(opts, dec, bits_text)
     ec, low_one = _count(dec, ref)
     if ec is not None and ec.synced and ec.bits > 0:
+        # with the pattern known, estimate the tones once more from the symbols
+        # that truly carried them (wrong decisions would pull both inwards)
+        known = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
+        tones = acquire.refine_tones(_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
+        out = branches.correlate(x, x_start, grid, tones, fs)
+        dec = decide.square_law(out.z)
+        rho = branches.template_correlation(tones, fs, grid.window)
+        ec, low_one = _count(dec, ref)
+    if ec is not None and ec.synced and ec.bits > 0:
         sent = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
         mask = ec.counted
         data_aided = True

@@ -58,7 +58,7 @@ def spectrum(result):
         ax.plot([], [], color=INK, linestyle=":", label="nominal")
     ax.set_xlabel("frequency (kHz)" + (" audio" if result.capture.kind == "audio" else " from centre"), fontsize=8)
     ax.set_ylabel("power (dB, peak = 0)", fontsize=8)
-    ax.set_ylim(max(np.percentile(p, 1) - 3, -80), 8)
+    ax.set_ylim(max(np.percentile(p, 1) - 3, -80), 3)
     ax.legend(fontsize=7, loc="upper right", frameon=True, facecolor="white", edgecolor=GRID)
     _style(ax)
     return fig

@@ -14,6 +14,7 @@ def _env() -> Environment:
                       autoescape=select_autoescape(["html", "j2"]), trim_blocks=True, lstrip_blocks=True)
     env.filters["f"] = fmt_num
     env.filters["sci"] = fmt_sci
+    env.filters["g"] = fmt_auto
     return env
 
 
@@ -23,6 +24,13 @@ def fmt_num(v, digits: int = 2, unit: str = "") -> str:
         return "–"
     s = f"{v:,.{digits}f}"
     return f"{s} {unit}".strip()
+
+
+def fmt_auto(v) -> str:
+    """Fixed point for ordinary values, scientific for small ones (a BER)."""
+    if v is None:
+        return "–"
+    return fmt_sci(v) if v != 0 and abs(v) < 0.01 else fmt_num(v, 3)
 
 
 def fmt_sci(v, digits: int = 2) -> str:
