@@ -626,3 +626,212 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     else:
         slope, icpt = 0.0, best[0]
     return symbol_grid(grid.first_start + icpt, grid.samples_per_symbol + slope, n)
+
+
+# --------------------------------------------------------------------------- blind acquisition
+SPECTROGRAM_NFFT = 1024
+SPECTROGRAM_CELLS = 128
+
+
+def spectrogram_cells(x: np.ndarray, nfft: int = SPECTROGRAM_NFFT, cells: int = SPECTROGRAM_CELLS) -> np.ndarray:
+    """Power spectrogram of whole ``nfft``-sample frames, summed into ``cells`` frequency cells.
+
+    Returns an array (n_frames, cells) of mean power per cell, fftshifted
+    (cell 0 = most negative frequency); a Hann window is used.
+    """
+    n = len(x) // nfft
+    if n == 0:
+        return np.empty((0, cells))
+    w = np.hanning(nfft)
+    spec = np.abs(np.fft.fft(x[:n * nfft].reshape(n, nfft) * w, axis=1)) ** 2 / np.sum(w ** 2)
+    spec = np.fft.fftshift(spec, axes=1)
+    return spec.reshape(n, cells, nfft // cells).mean(axis=2)
+
+
+def cell_edges_hz(sample_rate_hz: float, cells: int = SPECTROGRAM_CELLS) -> np.ndarray:
+    """Frequency edges (cells + 1) of the spectrogram cells, Hz."""
+    return np.linspace(-sample_rate_hz / 2, sample_rate_hz / 2, cells + 1)
+
+
+def occupied_band(cells_power: np.ndarray, sample_rate_hz: float, positive_only: bool = False,
+                  n_sigma: float = 5.0, smooth: int = 4) -> tuple[float, float] | None:
+    """The band the bursts occupy, from a spectrogram of the whole capture, without hints.
+
+    Each cell's noise floor is its 20th percentile over time; a cell belongs
+    to the signal when, after a ``smooth``-frame moving average, its 97th
+    percentile over time stands ``n_sigma`` standard deviations above that
+    floor (so bursts filling only a few per cent of the time are found).  The
+    band is the contiguous run of such cells around the strongest one
+    (gaps of up to 1/16 of the band bridged), widened by one cell on each side.
+
+    Returns
+    -------
+    (low_hz, high_hz) or None when no cell stands out.
+    """
+    sg = np.asarray(cells_power, float)
+    if sg.shape[0] < 2:
+        return None
+    n_frames, cells = sg.shape
+    k = max(1, min(smooth, n_frames))
+    kern = np.ones(k) / k
+    sm = np.apply_along_axis(lambda c: np.convolve(c, kern, mode="valid"), 0, sg)
+    floor = np.percentile(sm, 20, axis=0)
+    edges = cell_edges_hz(sample_rate_hz, cells)
+    valid = np.ones(cells, bool)
+    if positive_only:
+        valid = edges[:-1] >= 0
+    if not valid.any():
+        return None
+    # Floor of each cell: its own 20th percentile over time, but never above the
+    # median floor of all cells -- a cell the bursts fill most of the time
+    # would otherwise hide behind its own level.  Cells are then compared with
+    # each other: signal cells are outliers of the excess distribution.
+    global_floor = np.median(floor[valid])
+    floor = np.maximum(np.minimum(floor, global_floor), 1e-6 * global_floor + 1e-300)
+    hi = np.percentile(sm, 97, axis=0)
+    excess = hi / floor - 1.0
+    med = np.median(excess[valid])
+    mad = 1.4826 * np.median(np.abs(excess[valid] - med))
+    sig = valid & (excess > med + 2.0 * n_sigma * max(mad, 1e-12 * abs(med) + 1e-12))
+    if not sig.any():
+        return None
+    peak = int(np.argmax(np.where(sig, excess, -np.inf)))
+    lo = hi_i = peak
+    gap = max(3, cells // 16)     # bridge gaps between the two tones' lobes
+    while True:
+        nxt = [j for j in range(lo - gap, lo) if j >= 0 and sig[j]]
+        if not nxt:
+            break
+        lo = min(nxt)
+    while True:
+        nxt = [j for j in range(hi_i + 1, hi_i + gap + 1) if j < cells and sig[j]]
+        if not nxt:
+            break
+        hi_i = max(nxt)
+    lo = max(lo - 1, 0)
+    hi_i = min(hi_i + 1, cells - 1)
+    return float(edges[lo]), float(edges[hi_i + 1])
+
+
+def band_limit(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float]) -> np.ndarray:
+    """Zero everything outside ``band_hz`` (FFT brick-wall filter of the whole segment)."""
+    X = np.fft.fft(x)
+    f = np.fft.fftfreq(len(x), 1.0 / sample_rate_hz)
+    X[(f < band_hz[0]) | (f > band_hz[1])] = 0.0
+    return np.fft.ifft(X)
+
+
+def blind_tones(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float]) -> tuple[float, float]:
+    """First estimates of the two tones with no hints: modes of the instantaneous frequency.
+
+    The segment is band-limited to ``band_hz``; the phase increment of a lag
+    of ``m`` samples (``m ~ fs / bandwidth``, which is at most half a symbol
+    for a band at least two symbol rates wide), averaged over ``m`` samples,
+    gives a short-time frequency; its histogram has one mode per tone, even
+    when the tones are closer than the symbol rate and their spectral lobes
+    merge.  The two modes are found by splitting the histogram at its
+    deepest valley between the two highest peaks.
+
+    Returns
+    -------
+    (f0, f1)
+        Coarse tones (the decision-directed estimator refines them).
+    """
+    y = band_limit(x, sample_rate_hz, band_hz)
+    bw = max(band_hz[1] - band_hz[0], 1e-9 * sample_rate_hz)
+    m = int(max(1, round(sample_rate_hz / bw)))
+    prod = y[m:] * np.conj(y[:-m])
+    c = np.concatenate(([0.0], np.cumsum(prod)))
+    avg = c[m:] - c[:-m]
+    weight = np.abs(avg)
+    f = np.angle(avg) / (2 * np.pi * m) * sample_rate_hz
+    # the lag-m product aliases beyond +-fs/(2m): unwrap around the band centre
+    centre = 0.5 * (band_hz[0] + band_hz[1])
+    span = sample_rate_hz / m
+    f = centre + (f - centre + span / 2) % span - span / 2
+    keep = (f >= band_hz[0]) & (f <= band_hz[1])
+    f, weight = f[keep], weight[keep]
+    if f.size < 16:
+        return (band_hz[0] + 0.25 * bw, band_hz[1] - 0.25 * bw)
+    nb = 256
+    hist, edges = np.histogram(f, bins=nb, range=band_hz, weights=weight ** 2)
+    ks = max(1, nb // 64)
+    h = np.convolve(hist, np.ones(2 * ks + 1) / (2 * ks + 1), mode="same")
+    centres = 0.5 * (edges[:-1] + edges[1:])
+    # the two highest local maxima at least 1/16 of the band apart
+    peaks = [i for i in range(1, nb - 1) if h[i] >= h[i - 1] and h[i] >= h[i + 1] and h[i] > 0]
+    peaks.sort(key=lambda i: -h[i])
+    if not peaks:
+        return (band_hz[0] + 0.25 * bw, band_hz[1] - 0.25 * bw)
+    p1 = peaks[0]
+    p2 = next((i for i in peaks[1:] if abs(i - p1) >= nb // 16 and h[i] >= 0.15 * h[p1]), None)
+    if p2 is None:
+        # one merged mode: split the histogram at its median and take each half's mode
+        cdf = np.cumsum(h) / np.sum(h)
+        mid = int(np.searchsorted(cdf, 0.5))
+        lo_i = int(np.argmax(h[:mid])) if mid > 0 else 0
+        hi_i = mid + int(np.argmax(h[mid:]))
+        a, b = centres[lo_i], centres[hi_i]
+        if b - a < bw / 16:
+            a, b = centres[max(mid - nb // 8, 0)], centres[min(mid + nb // 8, nb - 1)]
+    else:
+        i, j = sorted((p1, p2))
+        a = centres[i] + (_parabolic_peak(h, i) - i) * (centres[1] - centres[0])
+        b = centres[j] + (_parabolic_peak(h, j) - j) * (centres[1] - centres[0])
+    return (float(a), float(b))
+
+
+def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -> float | None:
+    """Symbol rate with no hint: the line of the tone-transition instants.
+
+    With coarse tones ``f0, f1`` and a window of ``m = fs / (2 (f1 - f0))``
+    samples (half the time it takes the two tones to separate, so at most
+    about half a symbol for the usual spacings), ``d[n] = |S1(n)|^2 - |S0(n)|^2``
+    is a noisy two-level waveform.  Sliced with hysteresis it gives the
+    instants where the sent tone changes, which lie on multiples of the symbol
+    period; the spectrum of that impulse train has lines at the symbol rate
+    and its harmonics, the fundamental the strongest once timing jitter
+    is present.  The strongest line between a quarter and four times the tone
+    spacing (and below fs/2) is taken.
+
+    Returns
+    -------
+    float or None
+        Coarse symbol rate (refined by :func:`estimate_symbol_timing`), or
+        None with too few transitions.
+    """
+    spacing = abs(float(tones_hz[1]) - float(tones_hz[0]))
+    if spacing <= 0:
+        return None
+    m = int(max(1, round(0.5 * sample_rate_hz / spacing)))
+    n = np.arange(len(x))
+    if len(x) < 16 * m:
+        return None
+    d = np.zeros(len(x) - m + 1)
+    for sgn, f in ((-1.0, tones_hz[0]), (1.0, tones_hz[1])):
+        y = x * np.exp(-2j * np.pi * f * n / sample_rate_hz)
+        c = np.concatenate(([0.0], np.cumsum(y)))
+        d += sgn * np.abs(c[m:] - c[:-m]) ** 2
+    h = 0.25 * np.median(np.abs(d))
+    # hysteresis slicer: state changes only when d crosses +-h
+    state = np.where(d > h, 1, np.where(d < -h, -1, 0))
+    nz = np.flatnonzero(state)
+    if nz.size < 4:
+        return None
+    filled = state[nz][np.maximum(np.searchsorted(nz, np.arange(len(d)), side="right") - 1, 0)]
+    trans = np.flatnonzero(np.diff(filled) != 0).astype(float) + 1.0
+    if trans.size < 8:
+        return None
+    # the window starts m samples early: the mid-crossing sits m/2 before the boundary
+    imp = np.zeros(len(d))
+    imp[trans.astype(int)] = 1.0
+    imp -= imp.mean()
+    nfft = int(2 ** np.ceil(np.log2(len(imp) * 2)))
+    spec = np.abs(np.fft.rfft(imp, n=nfft)) ** 2
+    freqs = np.fft.rfftfreq(nfft, 1.0 / sample_rate_hz)
+    sel = np.flatnonzero((freqs >= spacing / 4) & (freqs <= min(4 * spacing, 0.5 * sample_rate_hz)))
+    if sel.size == 0:
+        return None
+    i = int(sel[np.argmax(spec[sel])])
+    step = freqs[1] - freqs[0]
+    return float(freqs[0] + _parabolic_peak(spec, i) * step)
