@@ -92,6 +92,8 @@ def analyze(
     html_path: Optional[Path] = typer.Option(None, "--html", help="HTML report path (default OUT/NAME.html)."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
+    strict: bool = typer.Option(False, "--strict", help="Treat a SigMF checksum mismatch as an error, "
+                                                       "not a warning."),
 ):
     """Analyse one capture and write JSON and HTML reports.
 
@@ -102,7 +104,8 @@ def analyze(
     try:
         code = run_analyze(capture=capture, tones=_pair(tones, "--tones"), baud=baud, rate=rate,
                            fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
-                           name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet)
+                           name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet,
+                           strict=strict)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001 - every failure becomes one error line

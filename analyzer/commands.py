@@ -55,7 +55,7 @@ def _inputs(capture: Path) -> list[Path]:
 
 def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision: str, out: Path,
                 name: str | None, json_path: Path | None, html_path: Path | None, overwrite: bool,
-                quiet: bool) -> int:
+                quiet: bool, strict: bool = False) -> int:
     """Analyse, write the reports, print the summary; return the exit code."""
     from .report.html import render_html
     from .report.terminal import print_summary
@@ -64,16 +64,19 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision:
     inputs = _inputs(Path(capture))
     if reference.startswith("bits:"):
         inputs.append(Path(reference[5:]))
+    if paths["json"] == paths["html"] or (paths["json"].resolve() == paths["html"].resolve()):
+        raise InputError("the JSON and HTML reports would be the same file", paths["json"],
+                         "give --json and --html different names")
     for p in paths.values():
         check_output(p, inputs, overwrite)
     prog, cb = _progress_bar(quiet)
     if prog:
         with prog:
             result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
-                             reference=reference, decision=decision, progress=cb)
+                             reference=reference, decision=decision, progress=cb, strict=strict)
     else:
         result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
-                         reference=reference, decision=decision)
+                         reference=reference, decision=decision, strict=strict)
     report = json_report.build_report(result)
     # render everything before writing anything, so a failure leaves no partial set
     html = render_html(result, report)
