@@ -47,9 +47,11 @@ def _inputs(capture: Path) -> list[Path]:
     p = Path(capture)
     out = [p]
     if p.name.endswith(".sigmf-meta"):
-        out.append(p.with_name(p.name[:-5] + "data"))
+        out.append(p.with_name(p.name[:-len("meta")] + "data"))
     elif p.name.endswith(".sigmf-data"):
-        out.append(p.with_name(p.name[:-4] + "meta"))
+        out.append(p.with_name(p.name[:-len("data")] + "meta"))
+    elif not p.exists():                       # the base name of a SigMF recording
+        out += [p.with_name(p.name + ".sigmf-meta"), p.with_name(p.name + ".sigmf-data")]
     return out
 
 
@@ -77,6 +79,10 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str, decision:
     else:
         result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
                          reference=reference, decision=decision, strict=strict)
+    # the files actually read (a SigMF core:dataset may name another data file)
+    opened = [Path(result.capture.path), Path(result.capture.data_path)]
+    for p in paths.values():
+        check_output(p, inputs + opened, overwrite=True)
     report = json_report.build_report(result)
     # render everything before writing anything, so a failure leaves no partial set
     html = render_html(result, report)

@@ -168,6 +168,7 @@ class _Scan:
     """What one pass over the raw samples found."""
 
     mean: complex
+    power: float          # mean |x|^2
     peak: float
     clipped: int
 
@@ -176,6 +177,7 @@ def _scan(cap: Capture, block: int) -> _Scan:
     """First pass: first non-finite sample, mean (DC offset), peak and clipped samples."""
     level = getattr(cap, "clip_level", None)
     total = 0j
+    energy = 0.0
     peak = 0.0
     clipped = 0
     pos = 0
@@ -189,6 +191,7 @@ def _scan(cap: Capture, block: int) -> _Scan:
             raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", cap.path,
                              "the recording is corrupt; trim or re-record it")
         total += complex(np.sum(x, dtype=np.complex128))
+        energy += float(np.sum(np.abs(x.astype(np.complex128)) ** 2))
         peak = max(peak, float(np.max(np.abs(x))))
         if level is not None:
             over = np.abs(x.real) >= level
@@ -197,7 +200,7 @@ def _scan(cap: Capture, block: int) -> _Scan:
             clipped += int(np.count_nonzero(over))
         pos += len(x)
     n = max(pos, 1)
-    return _Scan(mean=total / n, peak=peak, clipped=clipped)
+    return _Scan(mean=total / n, power=energy / n, peak=peak, clipped=clipped)
 
 
 def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
@@ -311,7 +314,7 @@ def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
 
 # --------------------------------------------------------------------------- one burst
 def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: AnalysisOptions,
-                            noise_var: float):
+                            noise_var: float, min_symbols: int = MIN_SYMBOLS):
     """Timing on the span, then symbol-level segmentation into bursts."""
     tones = tuple(float(f) for f in opts.tones_hz)
     rs = float(opts.symbol_rate_hz)
@@ -321,7 +324,7 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: Analys
         return []
     out = branches.correlate(x, x_start, grid, tones, fs)
     energy = np.sum(np.abs(out.z) ** 2, axis=1)
-    segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=MIN_SYMBOLS)
+    segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=min_symbols)
     return [(grid, f, s) for f, s in segs]
 
 
@@ -461,11 +464,14 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
         if not np.any(power > 0):
             raise InputError("the capture holds no signal (every sample has the same value)", cap.path,
                              "check the recording chain")
+        # significant: above the noise floor, or within 40 dB of the power of what varies
         dc_power = abs(scan.mean) ** 2
-        if dc_power > 0 and dc_power > noise_var:
+        ac_power = max(scan.power - dc_power, 0.0)
+        if dc_power > 0 and (dc_power > noise_var or dc_power > 1e-4 * ac_power):
+            rel = 10 * np.log10(dc_power / ac_power) if ac_power > 0 else float("inf")
             warn(f"{cap.path}: DC offset of {10 * np.log10(dc_power):.1f} dBFS "
-                 f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale), above the noise floor "
-                 f"({floor_dbfs:.1f} dBFS); removed before analysis")
+                 f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale, {rel:.1f} dB against the "
+                 f"rest of the signal); removed before analysis")
         margin = 8 * frame + 4 * int(np.ceil(sps))
         regions = _merge_spans(spans, gap=int(4 * sps), margin=margin, n_samples=cap.n_samples)
         bursts: list[BurstResult] = []
@@ -475,9 +481,15 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                 bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
                                              bits_text, full_scale))
         if not bursts:
-            short, _ = acquire.find_bursts(trace, 2 * sps)
-            longest = max(((sp.stop - sp.start) / sps for sp in short), default=0.0)
-            if 0 < longest < 1.5 * MIN_SYMBOLS:
+            # were there bursts, only too short?  Segment again, keeping runs of 2 symbols or more.
+            short = _merge_spans(acquire.find_bursts(trace, 2 * sps)[0], gap=int(4 * sps), margin=margin,
+                                 n_samples=cap.n_samples)
+            longest = 0
+            for a, b in short:
+                x = read(a, b - a).astype(np.complex128)
+                for _, first, stop in _acquire_bursts_in_span(x, a, fs, opts, noise_var, min_symbols=2):
+                    longest = max(longest, stop - first)
+            if 0 < longest < MIN_SYMBOLS:
                 raise InputError(f"bursts shorter than {MIN_SYMBOLS} symbols (the longest found is about "
                                  f"{longest:.0f} symbols at {rs:g} Bd)", cap.path,
                                  f"tonepair needs bursts of at least {MIN_SYMBOLS} symbols; check --baud")
