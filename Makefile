@@ -5,7 +5,7 @@ BIN    := $(VENV)/bin
 DEMO_CAPTURE := sample_captures/beacon_demo.sigmf-meta
 DEMO_SPEC    := sample_captures/beacon_demo.spec.toml
 
-.PHONY: venv venv-test demo test clean
+.PHONY: venv venv-test demo test fuzz clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -23,6 +23,9 @@ demo: venv
 
 test: venv-test
 	MPLBACKEND=Agg $(BIN)/python -m pytest -q
+
+fuzz: venv-test
+	TONEPAIR_FUZZ_EXAMPLES=10000 $(BIN)/python -m pytest -q -m fuzz tests/test_fuzz_loaders.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info

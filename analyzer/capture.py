@@ -149,9 +149,16 @@ class _AudioSource:
     def raw(self, a: int, b: int) -> np.ndarray:
         import soundfile as sf
 
-        with sf.SoundFile(str(self.path)) as f:
-            f.seek(a)
-            x = f.read(b - a, dtype="float64", always_2d=True)
+        try:
+            with sf.SoundFile(str(self.path)) as f:
+                f.seek(a)
+                x = f.read(b - a, dtype="float64", always_2d=True)
+        except (RuntimeError, OSError, ValueError) as exc:       # sf.LibsndfileError is a RuntimeError
+            raise InputError(f"cannot read samples {a} to {b} ({exc})", self.path,
+                             "the audio file is damaged; write or record it again") from None
+        if len(x) != b - a:
+            raise InputError(f"audio file ends early: samples {a} to {b} were expected, {len(x)} read",
+                             self.path, "the audio file is truncated; write or record it again")
         if self.channels == 2:
             return x[:, 0] + 1j * x[:, 1]
         return x[:, 0]
@@ -185,6 +192,10 @@ class Capture:
         ``tonepair:truth`` or a sidecar ``<file>.truth.json``).
     metadata : dict
         SigMF metadata (empty for raw and audio files).
+    clip_level : float or None
+        For integer formats, the magnitude (of I or Q, after scaling) at or
+        above which a stored value is at the converter's limit: the largest
+        positive code over full scale, capped at 0.999; None for float data.
     """
 
     path: Path
@@ -196,6 +207,7 @@ class Capture:
     datatype: str
     truth: dict | None
     metadata: dict
+    clip_level: float | None = None
     _source: object = field(default=None, repr=False, compare=False)
 
     @property
@@ -335,13 +347,38 @@ def _parse_datatype(dt: str, path: Path) -> tuple[np.dtype, int, float, float]:
     return comp, n_comp, 1.0 / full, bias
 
 
+def _clip_level(bits: int | None) -> float | None:
+    """Scaled magnitude at which an integer sample of ``bits`` bits is at its limit."""
+    if not bits:
+        return None
+    full = 2.0 ** (bits - 1)
+    return min(0.999, (full - 1.0) / full) - 1e-12
+
+
+def _sigmf_bits(dt: str) -> int | None:
+    m = _SIGMF_TYPE.match(dt)
+    return None if m is None or m["num"] == "f" else int(m["bits"])
+
+
+_AUDIO_BITS = {"PCM_S8": 8, "PCM_U8": 8, "PCM_16": 16, "PCM_24": 24, "PCM_32": 32}
+
+
+def _int_field(g: dict, key: str, default: int, path: Path, minimum: int = 0) -> int:
+    v = g.get(key, default)
+    if isinstance(v, bool) or not isinstance(v, (int, float)) or v != v or abs(v) > 2 ** 62 \
+            or int(v) != v or v < minimum:
+        raise InputError(f"{key} is {v!r}, not a whole number >= {minimum}", path,
+                         "repair the metadata so that it follows SigMF 1.x")
+    return int(v)
+
+
 def _ignored_options(path: Path, rate, fmt, what: str) -> None:
     if rate is not None or fmt is not None:
         warn(f"{path}: --rate/--format ignored, the {what} file gives its own sample rate and format")
 
 
 # --------------------------------------------------------------------------- openers
-def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capture:
+def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt, strict: bool = False) -> Capture:
     import jsonschema
     import sigmf
     from sigmf import hashing, sigmffile
@@ -372,6 +409,9 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
                          "analyse a recording that has its dataset")
     dataset = g.get("core:dataset")
     if dataset:
+        if not isinstance(dataset, str) or Path(dataset).name != dataset or dataset in (".", ".."):
+            raise InputError(f"core:dataset {dataset!r} is not a file name", meta_path,
+                             "name a dataset file in the same folder as the metadata")
         data_path = meta_path.parent / dataset
     if not data_path.exists():
         raise InputError(f"SigMF dataset {data_path.name} not found beside the metadata", meta_path,
@@ -383,9 +423,16 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
     if rate_hz is None:
         raise InputError("SigMF metadata has no core:sample_rate", meta_path,
                          "add \"core:sample_rate\" (samples per second) to the global object")
+    if isinstance(rate_hz, bool) or not isinstance(rate_hz, (int, float)) or not np.isfinite(rate_hz) \
+            or rate_hz <= 0:
+        raise InputError(f"core:sample_rate {rate_hz!r} is not a positive number", meta_path,
+                         "give the sample rate in samples per second")
+    if "core:datatype" not in g:
+        raise InputError("SigMF metadata has no core:datatype", meta_path,
+                         "add \"core:datatype\" (for example \"cf32_le\") to the global object")
     dt = str(g["core:datatype"]).lower()
     comp, n_comp, scale, bias = _parse_datatype(dt, meta_path)
-    n_ch = int(g.get("core:num_channels", 1))
+    n_ch = _int_field(g, "core:num_channels", 1, meta_path, minimum=0)
     if n_ch < 1:
         raise InputError(f"core:num_channels is {n_ch}", meta_path, "set it to 1 or more")
     if n_ch > 1:
@@ -393,9 +440,13 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
 
     frame = comp.itemsize * n_comp * n_ch
     caps = meta["captures"] or [{"core:sample_start": 0}]
-    offset = int(g.get("core:offset", 0))
-    headers = np.cumsum([int(c.get("core:header_bytes", 0)) for c in caps])
-    trailing = int(g.get("core:trailing_bytes", 0))
+    if not all(isinstance(c, dict) for c in caps):
+        raise InputError("a SigMF capture segment is not a JSON object", meta_path,
+                         "repair the metadata so that it follows SigMF 1.x")
+    offset = _int_field(g, "core:offset", 0, meta_path)
+    headers = np.cumsum([_int_field(c, "core:header_bytes", 0, meta_path) for c in caps])
+    trailing = _int_field(g, "core:trailing_bytes", 0, meta_path)
+    sample_starts = [_int_field(c, "core:sample_start", 0, meta_path) for c in caps]
     size = data_path.stat().st_size
     payload = size - int(headers[-1]) - trailing
     if payload <= 0:
@@ -407,7 +458,19 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
     if n_samples == 0:
         raise InputError("SigMF dataset holds no whole sample", data_path, "check that the recording was saved")
 
-    starts = [max(0, int(c.get("core:sample_start", 0)) - offset) for c in caps]
+    starts = [max(0, s - offset) for s in sample_starts]
+    if any(b < a for a, b in zip(starts, starts[1:])):
+        raise InputError("SigMF capture segments are not in order of core:sample_start", meta_path,
+                         "sort the captures list by core:sample_start (SigMF 1.x)")
+    claimed = max(starts) + 1           # a segment that starts at sample s holds sample s
+    for a in meta["annotations"]:
+        if isinstance(a, dict) and isinstance(a.get("core:sample_start"), int):
+            count = a.get("core:sample_count", 0)
+            count = count if isinstance(count, int) and count > 0 else 0
+            claimed = max(claimed, a["core:sample_start"] - offset + count)
+    if claimed > n_samples:
+        warn(f"{data_path}: the dataset holds {n_samples} samples but the metadata's captures/annotations "
+             f"reach sample {claimed}; the recording looks cut short (analysing the {n_samples} samples there are)")
     starts[0] = 0
     pieces = []
     for k, (s, h) in enumerate(zip(starts, headers)):
@@ -421,6 +484,8 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
             pieces.append((s, stop, int(h)))
 
     freqs = [c.get("core:frequency") for c in caps]
+    freqs = [f if isinstance(f, (int, float)) and not isinstance(f, bool) and np.isfinite(f) else None
+             for f in freqs]
     centre = None if freqs[0] is None else float(freqs[0])
     if len({f for f in freqs}) > 1:
         warn(f"{meta_path}: capture segments have different core:frequency values "
@@ -431,8 +496,12 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
     if sha:
         actual = hashing.calculate_sha512(filename=data_path)
         if actual.lower() != str(sha).lower():
+            if strict:
+                raise InputError("SHA-512 checksum does not match core:sha512 in the metadata", data_path,
+                                 "the data may be damaged or edited; restore the recording, or drop "
+                                 "--strict to analyse it anyway")
             warn(f"{data_path}: SHA-512 checksum does not match core:sha512 in the metadata; "
-                 "the data may be damaged or edited (analysing it anyway)")
+                 "the data may be damaged or edited (analysing it anyway; --strict makes this an error)")
 
     truth = g.get(_TRUTH_KEY)
     if not isinstance(truth, dict):
@@ -440,7 +509,7 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt) -> Capt
     src = _MemmapSource(data_path, pieces, comp, n_comp, n_ch, scale, bias)
     return Capture(path=path, data_path=data_path, kind="iq" if n_comp == 2 else "audio",
                    sample_rate_hz=float(rate_hz), centre_hz=centre, n_samples=int(n_samples), datatype=dt,
-                   truth=truth, metadata=meta, _source=src)
+                   truth=truth, metadata=meta, clip_level=_clip_level(_sigmf_bits(dt)), _source=src)
 
 
 def _open_audio(path: Path, container: str, rate, fmt) -> Capture:
@@ -463,7 +532,7 @@ def _open_audio(path: Path, container: str, rate, fmt) -> Capture:
     return Capture(path=path, data_path=path, kind="iq" if info.channels == 2 else "audio",
                    sample_rate_hz=float(info.samplerate), centre_hz=None, n_samples=int(info.frames),
                    datatype=f"{container}:{info.subtype}", truth=_sidecar_truth(path), metadata={},
-                   _source=_AudioSource(path, info.channels))
+                   clip_level=_clip_level(_AUDIO_BITS.get(info.subtype)), _source=_AudioSource(path, info.channels))
 
 
 def _open_raw(path: Path, rate, fmt) -> Capture:
@@ -502,10 +571,11 @@ def _open_raw(path: Path, rate, fmt) -> Capture:
              f"using {n_samples} samples and ignoring the last {extra} bytes (check --format)")
     src = _MemmapSource(path, [(0, n_samples, 0)], comp, n_comp, 1, scale, bias)
     return Capture(path=path, data_path=path, kind="iq", sample_rate_hz=rate_hz, centre_hz=None,
-                   n_samples=int(n_samples), datatype=dt, truth=_sidecar_truth(path), metadata={}, _source=src)
+                   n_samples=int(n_samples), datatype=dt, truth=_sidecar_truth(path), metadata={},
+                   clip_level=_clip_level(_sigmf_bits(dt)), _source=src)
 
 
-def open_capture(path, rate: float | None = None, fmt: str | None = None) -> Capture:
+def open_capture(path, rate: float | None = None, fmt: str | None = None, strict: bool = False) -> Capture:
     """Open a capture file (nothing is read but metadata and headers).
 
     Parameters
@@ -519,6 +589,8 @@ def open_capture(path, rate: float | None = None, fmt: str | None = None) -> Cap
     fmt : str, optional
         Raw sample format, one of ``cf32``, ``ci16``, ``ci8``, ``cu8``
         (little endian; ``--format``).
+    strict : bool
+        Make a SigMF checksum mismatch an error instead of a warning (``--strict``).
 
     Returns
     -------
@@ -547,7 +619,7 @@ def open_capture(path, rate: float | None = None, fmt: str | None = None) -> Cap
                                  "put the .sigmf-meta file beside it, or give --rate and --format "
                                  "to read it as raw I/Q samples")
             return _open_raw(p, rate, fmt)
-        return _open_sigmf(p, meta_path, data_path, rate, fmt)
+        return _open_sigmf(p, meta_path, data_path, rate, fmt, strict)
     container = _AUDIO_EXT.get(p.suffix.lower())
     if container:
         return _open_audio(p, container, rate, fmt)

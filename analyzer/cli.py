@@ -100,6 +100,8 @@ def analyze(
                                        "metadata with one annotation per burst (the input is not changed)."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
+    strict: bool = typer.Option(False, "--strict", help="Treat a SigMF checksum mismatch as an error, "
+                                                       "not a warning."),
 ):
     """Analyse one capture and write JSON and HTML reports (and PDF / SigMF annotations when asked).
 
@@ -111,7 +113,7 @@ def analyze(
         code = run_analyze(capture=capture, tones=_pair(tones, "--tones"), baud=baud, rate=rate,
                            fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
                            name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet,
-                           spec_path=spec, pdf_path=pdf_path, annotate=annotate)
+                           spec_path=spec, pdf_path=pdf_path, annotate=annotate, strict=strict)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001 - every failure becomes one error line

@@ -56,9 +56,11 @@ def _inputs(capture: Path) -> list[Path]:
     p = Path(capture)
     out = [p]
     if p.name.endswith(".sigmf-meta"):
-        out.append(p.with_name(p.name[:-5] + "data"))
+        out.append(p.with_name(p.name[:-len("meta")] + "data"))
     elif p.name.endswith(".sigmf-data"):
-        out.append(p.with_name(p.name[:-4] + "meta"))
+        out.append(p.with_name(p.name[:-len("data")] + "meta"))
+    elif not p.exists():                       # the base name of a SigMF recording
+        out += [p.with_name(p.name + ".sigmf-meta"), p.with_name(p.name + ".sigmf-data")]
     return out
 
 
@@ -90,7 +92,7 @@ def write_all(items: list[tuple[Path, bytes | str]]) -> list[Path]:
 def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, decision: str, out: Path,
                 name: str | None, json_path: Path | None, html_path: Path | None, overwrite: bool,
                 quiet: bool, spec_path: Path | None = None, pdf_path: Path | None = None,
-                annotate: bool = False) -> int:
+                annotate: bool = False, strict: bool = False) -> int:
     """Analyse, judge against the spec, write the reports, print the summary; return the exit code."""
     from .report.html import render_html
     from .report.terminal import print_summary
@@ -106,16 +108,24 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
         inputs.append(Path(reference[5:]))
     if spec_path is not None:
         inputs.append(Path(spec_path))
+    resolved = [p.resolve() for p in paths.values()]
+    if len(set(resolved)) < len(resolved):
+        raise InputError("two of the reports would be the same file", paths["json"],
+                         "give --json, --html and --pdf different names")
     for p in paths.values():
         check_output(p, inputs, overwrite)
     prog, cb = _progress_bar(quiet)
     if prog:
         with prog:
             result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
-                             reference=reference, decision=decision, progress=cb)
+                             reference=reference, decision=decision, progress=cb, strict=strict)
     else:
         result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
-                         reference=reference, decision=decision)
+                         reference=reference, decision=decision, strict=strict)
+    # the files actually read (a SigMF core:dataset may name another data file)
+    opened = [Path(result.capture.path), Path(result.capture.data_path)]
+    for p in paths.values():
+        check_output(p, inputs + opened, overwrite=True)
     report = json_report.build_report(result)
     if spec is not None:
         from .spec import judge

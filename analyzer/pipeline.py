@@ -15,7 +15,7 @@ import numpy as np
 
 from . import acquire, branches, decide, diagnostics, estimate, prbs, theory
 from .capture import Capture, open_capture
-from .errors import CaptureWarning, InputError
+from .errors import CaptureWarning, InputError, warn
 
 __all__ = ["AnalysisOptions", "BurstResult", "Summary", "AnalysisResult", "analyze", "analyze_capture"]
 
@@ -124,6 +124,14 @@ class AnalysisResult:
     spectrum_hz: np.ndarray
     spectrum_db: np.ndarray
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    dc_offset: complex = 0j               # mean of the samples, removed before analysis (full scale)
+    clipped_fraction: float | None = None  # share of samples at the converter limit (integer formats)
+
+    @property
+    def dc_offset_dbfs(self) -> float:
+        """Power of the removed DC offset, dB relative to full scale."""
+        p = abs(self.dc_offset) ** 2
+        return float(10 * np.log10(p)) if p > 0 else float("-inf")
 
 
 # --------------------------------------------------------------------------- helpers
@@ -159,8 +167,61 @@ def _noise_bands(cap: Capture, band: tuple[float, float], guard: float) -> list[
     return out
 
 
-def _power_trace(cap: Capture, band, frame: int, noise_bands, nfft_psd: int, progress):
+@dataclass(frozen=True)
+class _Scan:
+    """What one pass over the raw samples found."""
+
+    mean: complex
+    power: float          # mean |x|^2
+    peak: float
+    clipped: int
+
+
+def _scan(cap: Capture, block: int) -> _Scan:
+    """First pass: first non-finite sample, mean (DC offset), peak and clipped samples."""
+    level = getattr(cap, "clip_level", None)
+    total = 0j
+    energy = 0.0
+    peak = 0.0
+    clipped = 0
+    pos = 0
+    while pos < cap.n_samples:
+        x = cap.read(pos, block)
+        if len(x) == 0:
+            break
+        finite = np.isfinite(x)
+        if not np.all(finite):
+            bad = pos + int(np.flatnonzero(~finite)[0])
+            raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", cap.path,
+                             "the recording is corrupt; trim or re-record it")
+        total += complex(np.sum(x, dtype=np.complex128))
+        energy += float(np.sum(np.abs(x.astype(np.complex128)) ** 2))
+        peak = max(peak, float(np.max(np.abs(x))))
+        if level is not None:
+            over = np.abs(x.real) >= level
+            if cap.kind != "audio":          # audio: the imaginary part is computed, not stored
+                over |= np.abs(x.imag) >= level
+            clipped += int(np.count_nonzero(over))
+        pos += len(x)
+    n = max(pos, 1)
+    return _Scan(mean=total / n, power=energy / n, peak=peak, clipped=clipped)
+
+
+def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
+    """``read(start, count)`` on the capture with the DC offset removed."""
+    if dc == 0:
+        return cap.read
+    d = np.complex64(dc)
+
+    def read(start: int, count: int) -> np.ndarray:
+        return cap.read(start, count) - d
+
+    return read
+
+
+def _power_trace(cap: Capture, band, frame: int, noise_bands, nfft_psd: int, progress, read=None):
     """One pass over the capture: in-band power trace and an averaged spectrum."""
+    read = read or cap.read
     block = frame * BLOCK_FRAMES
     block -= block % nfft_psd if block > nfft_psd else 0
     powers, noises = [], []
@@ -168,7 +229,7 @@ def _power_trace(cap: Capture, band, frame: int, noise_bands, nfft_psd: int, pro
     n_psd = 0
     pos = 0
     while pos < cap.n_samples:
-        x = cap.read(pos, block)
+        x = read(pos, block)
         if len(x) == 0:
             break
         if not np.all(np.isfinite(x)):
@@ -256,7 +317,7 @@ def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
 
 # --------------------------------------------------------------------------- one burst
 def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: AnalysisOptions,
-                            noise_var: float):
+                            noise_var: float, min_symbols: int = MIN_SYMBOLS):
     """Timing on the span, then symbol-level segmentation into bursts."""
     tones = tuple(float(f) for f in opts.tones_hz)
     rs = float(opts.symbol_rate_hz)
@@ -266,7 +327,7 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: Analys
         return []
     out = branches.correlate(x, x_start, grid, tones, fs)
     energy = np.sum(np.abs(out.z) ** 2, axis=1)
-    segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=MIN_SYMBOLS)
+    segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=min_symbols)
     return [(grid, f, s) for f, s in segs]
 
 
@@ -382,8 +443,12 @@ def _summary(bursts: list[BurstResult]) -> Summary:
 
 # --------------------------------------------------------------------------- entry points
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
-                    progress: Callable[[int, int], None] | None = None) -> AnalysisResult:
-    """Analyse an opened capture (see :func:`analyze`)."""
+                    progress: Callable[[int, int], None] | None = None,
+                    prior_warnings: tuple[str, ...] = ()) -> AnalysisResult:
+    """Analyse an opened capture (see :func:`analyze`).
+
+    ``prior_warnings`` (from opening the capture) are put first in the result's warnings.
+    """
     _check_hints(cap, opts)
     fs = cap.sample_rate_hz
     f0, f1 = opts.tones_hz
@@ -394,41 +459,74 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     nfft_psd = int(min(1024, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
+        scan = _scan(cap, max(frame * BLOCK_FRAMES, 1 << 16))
+        if cap.n_samples == 0 or scan.peak == 0:
+            raise InputError("the capture holds no signal (all samples are zero)", cap.path,
+                             "check the recording chain")
+        clipped_fraction = None
+        if getattr(cap, "clip_level", None) is not None:
+            clipped_fraction = scan.clipped / cap.n_samples
+            if scan.clipped:
+                warn(f"{cap.path}: {scan.clipped} samples ({100 * clipped_fraction:.3g}%) are at the converter "
+                     f"limit (|I| or |Q| >= {cap.clip_level:.4g} of full scale): the capture is clipped, so "
+                     "tone energies and Eb/N0 are biased; lower the receiver gain")
+        read = _reader(cap, scan.mean)
         power, noise, freqs, psd = _power_trace(cap, band, frame, _noise_bands(cap, band, rs), nfft_psd,
-                                                progress)
+                                                progress, read)
         bins = acquire.band_bins(fs, band, frame)
         trace = acquire.PowerTrace(power, noise, frame, bins, band)
         spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps)
         noise_var = floor * frame / max(bins, 1)       # complex noise variance per sample
         full_scale = 1.0
         floor_dbfs = float(10 * np.log10(noise_var)) if noise_var > 0 else float("-inf")
-        if cap.n_samples == 0 or not np.any(power > 0):
-            raise InputError("the capture holds no signal (all samples are zero)", cap.path,
+        if not np.any(power > 0):
+            raise InputError("the capture holds no signal (every sample has the same value)", cap.path,
                              "check the recording chain")
+        # significant: above the noise floor, or within 40 dB of the power of what varies
+        dc_power = abs(scan.mean) ** 2
+        ac_power = max(scan.power - dc_power, 0.0)
+        if dc_power > 0 and (dc_power > noise_var or dc_power > 1e-4 * ac_power):
+            rel = 10 * np.log10(dc_power / ac_power) if ac_power > 0 else float("inf")
+            warn(f"{cap.path}: DC offset of {10 * np.log10(dc_power):.1f} dBFS "
+                 f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale, {rel:.1f} dB against the "
+                 f"rest of the signal); removed before analysis")
         margin = 8 * frame + 4 * int(np.ceil(sps))
         regions = _merge_spans(spans, gap=int(4 * sps), margin=margin, n_samples=cap.n_samples)
         bursts: list[BurstResult] = []
         for a, b in regions:
-            x = cap.read(a, b - a).astype(np.complex128)
+            x = read(a, b - a).astype(np.complex128)
             for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, opts, noise_var):
                 bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
                                              bits_text, full_scale))
         if not bursts:
+            # were there bursts, only too short?  Segment again, keeping runs of 2 symbols or more.
+            short = _merge_spans(acquire.find_bursts(trace, 2 * sps)[0], gap=int(4 * sps), margin=margin,
+                                 n_samples=cap.n_samples)
+            longest = 0
+            for a, b in short:
+                x = read(a, b - a).astype(np.complex128)
+                for _, first, stop in _acquire_bursts_in_span(x, a, fs, opts, noise_var, min_symbols=2):
+                    longest = max(longest, stop - first)
+            if 0 < longest < MIN_SYMBOLS:
+                raise InputError(f"bursts shorter than {MIN_SYMBOLS} symbols (the longest found is about "
+                                 f"{longest:.0f} symbols at {rs:g} Bd)", cap.path,
+                                 f"tonepair needs bursts of at least {MIN_SYMBOLS} symbols; check --baud")
             raise InputError(f"no tone bursts found above the noise floor ({floor_dbfs:.1f} dBFS "
                              f"per sample)", cap.path,
                              "check --tones/--baud, or that the capture holds a transmission")
         summary = _summary(bursts)
-    messages = tuple(str(w.message) for w in caught if issubclass(w.category, CaptureWarning))
+    messages = tuple(prior_warnings) + tuple(str(w.message) for w in caught
+                                             if issubclass(w.category, CaptureWarning))
     spec_db = 10 * np.log10(np.maximum(psd, 1e-30))
     return AnalysisResult(capture=cap, options=opts, bursts=tuple(bursts), summary=summary,
                           noise_floor_dbfs=floor_dbfs, spectrum_hz=freqs, spectrum_db=spec_db,
-                          warnings=messages)
+                          warnings=messages, dc_offset=complex(scan.mean), clipped_fraction=clipped_fraction)
 
 
 def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None,
             sample_rate_hz: float | None = None, fmt: str | None = None, reference: str = "auto",
             decision: str = "square-law",
-            progress: Callable[[int, int], None] | None = None) -> AnalysisResult:
+            progress: Callable[[int, int], None] | None = None, strict: bool = False) -> AnalysisResult:
     """Analyse a capture of two-tone FSK bursts.
 
     Parameters
@@ -448,6 +546,8 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
         ``square-law`` or ``likelihood``.
     progress : callable, optional
         Called as ``progress(done_samples, total_samples)`` during the first pass.
+    strict : bool
+        A SigMF checksum mismatch is an error instead of a warning.
 
     Returns
     -------
@@ -458,7 +558,10 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     InputError
         For any unusable input or option.
     """
-    cap = open_capture(path, rate=sample_rate_hz, fmt=fmt)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", CaptureWarning)
+        cap = open_capture(path, rate=sample_rate_hz, fmt=fmt, strict=strict)
+    opened = tuple(str(w.message) for w in caught if issubclass(w.category, CaptureWarning))
     bits_text = None
     if reference.startswith("bits:"):
         bpath = Path(reference[5:])
@@ -475,4 +578,4 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     opts = AnalysisOptions(tones_hz=None if tones_hz is None else (float(tones_hz[0]), float(tones_hz[1])),
                            symbol_rate_hz=None if symbol_rate_hz is None else float(symbol_rate_hz),
                            reference=reference, decision=decision)
-    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress)
+    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress, prior_warnings=opened)

@@ -24,7 +24,18 @@ def check_output(path: Path, inputs: list[Path], overwrite: bool) -> None:
         raise InputError("the output file exists already", p, "remove it, choose another name, or add --overwrite")
     parent = p.parent if str(p.parent) else Path(".")
     if parent.exists() and not parent.is_dir():
-        raise InputError("the output folder is not a folder", parent)
+        raise InputError("the output folder is not a folder", parent, "choose another --out folder")
+    # the nearest folder that exists must be a folder we can write in (it is created below it)
+    up = parent
+    while not up.exists() and up != up.parent:
+        up = up.parent
+    if up.exists() and not up.is_dir():
+        raise InputError(f"cannot create the output folder: {up} is a file, not a folder", parent,
+                         "choose another --out folder")
+    if up.is_dir() and not os.access(up, os.W_OK | os.X_OK):
+        raise InputError("the output folder cannot be written", up, "choose a writable --out folder")
+    if p.exists() and p.is_dir():
+        raise InputError("the output path is a folder", p, "name a file for --json/--html")
 
 
 def write_atomic(path: Path, data: bytes | str) -> Path:

@@ -137,6 +137,9 @@ def build_report(result, checks: list[dict] | None = None, verdict: str = "not-j
             "centre_hz": _num(cap.centre_hz),
             "datatype": cap.datatype,
             "noise_floor_dbfs": _num(result.noise_floor_dbfs),
+            "dc_offset_dbfs": _num(getattr(result, "dc_offset_dbfs", None)),
+            "dc_offset_iq": _pair((getattr(result, "dc_offset", 0j).real, getattr(result, "dc_offset", 0j).imag)),
+            "clipped_fraction": _num(getattr(result, "clipped_fraction", None)),
         },
         "options": {
             "tones_hz": None if opts.tones_hz is None else _pair(opts.tones_hz),
