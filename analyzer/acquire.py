@@ -695,21 +695,22 @@ def occupied_band(cells_power: np.ndarray, sample_rate_hz: float, positive_only:
     sig = valid & (excess > med + 2.0 * n_sigma * max(mad, 1e-12 * abs(med) + 1e-12))
     if not sig.any():
         return None
-    peak = int(np.argmax(np.where(sig, excess, -np.inf)))
-    lo = hi_i = peak
-    gap = max(3, cells // 16)     # bridge gaps between the two tones' lobes
-    while True:
-        nxt = [j for j in range(lo - gap, lo) if j >= 0 and sig[j]]
-        if not nxt:
-            break
-        lo = min(nxt)
-    while True:
-        nxt = [j for j in range(hi_i + 1, hi_i + gap + 1) if j < cells and sig[j]]
-        if not nxt:
-            break
-        hi_i = max(nxt)
-    lo = max(lo - 1, 0)
-    hi_i = min(hi_i + 1, cells - 1)
+    # clusters of signal cells (gaps of up to 1/16 of the cells bridged); the
+    # band spans every cluster at least a quarter as strong as the strongest
+    # (an FSK signal with wide spacing shows two lobes with a gap between)
+    gap = max(3, cells // 16)
+    idx = np.flatnonzero(sig)
+    groups = [[idx[0], idx[0]]]
+    for j in idx[1:]:
+        if j - groups[-1][1] <= gap:
+            groups[-1][1] = j
+        else:
+            groups.append([j, j])
+    strength = [float(np.max(excess[a:b + 1])) for a, b in groups]
+    top = max(strength)
+    keep = [g for g, st in zip(groups, strength) if st >= 0.25 * top]
+    lo = max(min(g[0] for g in keep) - 1, 0)
+    hi_i = min(max(g[1] for g in keep) + 1, cells - 1)
     return float(edges[lo]), float(edges[hi_i + 1])
 
 
@@ -729,8 +730,8 @@ def blind_tones(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, floa
     for a band at least two symbol rates wide), averaged over ``m`` samples,
     gives a short-time frequency; its histogram has one mode per tone, even
     when the tones are closer than the symbol rate and their spectral lobes
-    merge.  The two modes are found by splitting the histogram at its
-    deepest valley between the two highest peaks.
+    merge.  The frequencies are split in two by 1-D two-means, and each
+    side's histogram mode is a tone.
 
     Returns
     -------
@@ -753,31 +754,40 @@ def blind_tones(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, floa
     f, weight = f[keep], weight[keep]
     if f.size < 16:
         return (band_hz[0] + 0.25 * bw, band_hz[1] - 0.25 * bw)
+    w = weight ** 2
+    # two-means split of the short-time frequencies (Lloyd iterations in 1-D),
+    # then the mode of each side: the mode is not pulled by the samples that
+    # straddle a tone change, as a mean would be
+    order = np.argsort(f)
+    cw = np.cumsum(w[order]) / np.sum(w)
+    c0 = f[order][np.searchsorted(cw, 0.25)]
+    c1 = f[order][min(np.searchsorted(cw, 0.75), f.size - 1)]
+    for _ in range(30):
+        thr = 0.5 * (c0 + c1)
+        lo_side = f <= thr
+        if not lo_side.any() or lo_side.all():
+            break
+        n0 = np.sum(w[lo_side] * f[lo_side]) / np.sum(w[lo_side])
+        n1 = np.sum(w[~lo_side] * f[~lo_side]) / np.sum(w[~lo_side])
+        if abs(n0 - c0) + abs(n1 - c1) < 1e-6 * bw:
+            c0, c1 = n0, n1
+            break
+        c0, c1 = n0, n1
+    thr = 0.5 * (c0 + c1)
     nb = 256
-    hist, edges = np.histogram(f, bins=nb, range=band_hz, weights=weight ** 2)
+    hist, edges = np.histogram(f, bins=nb, range=band_hz, weights=w)
     ks = max(1, nb // 64)
     h = np.convolve(hist, np.ones(2 * ks + 1) / (2 * ks + 1), mode="same")
     centres = 0.5 * (edges[:-1] + edges[1:])
-    # the two highest local maxima at least 1/16 of the band apart
-    peaks = [i for i in range(1, nb - 1) if h[i] >= h[i - 1] and h[i] >= h[i + 1] and h[i] > 0]
-    peaks.sort(key=lambda i: -h[i])
-    if not peaks:
-        return (band_hz[0] + 0.25 * bw, band_hz[1] - 0.25 * bw)
-    p1 = peaks[0]
-    p2 = next((i for i in peaks[1:] if abs(i - p1) >= nb // 16 and h[i] >= 0.15 * h[p1]), None)
-    if p2 is None:
-        # one merged mode: split the histogram at its median and take each half's mode
-        cdf = np.cumsum(h) / np.sum(h)
-        mid = int(np.searchsorted(cdf, 0.5))
-        lo_i = int(np.argmax(h[:mid])) if mid > 0 else 0
-        hi_i = mid + int(np.argmax(h[mid:]))
-        a, b = centres[lo_i], centres[hi_i]
-        if b - a < bw / 16:
-            a, b = centres[max(mid - nb // 8, 0)], centres[min(mid + nb // 8, nb - 1)]
-    else:
-        i, j = sorted((p1, p2))
-        a = centres[i] + (_parabolic_peak(h, i) - i) * (centres[1] - centres[0])
-        b = centres[j] + (_parabolic_peak(h, j) - j) * (centres[1] - centres[0])
+    step = centres[1] - centres[0]
+    left = np.flatnonzero(centres <= thr)
+    right = np.flatnonzero(centres > thr)
+    if left.size == 0 or right.size == 0:
+        return (float(c0), float(c1))
+    i = int(left[np.argmax(h[left])])
+    j = int(right[np.argmax(h[right])])
+    a = centres[0] + _parabolic_peak(h, i) * step
+    b = centres[0] + _parabolic_peak(h, j) * step
     return (float(a), float(b))
 
 
@@ -790,9 +800,9 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -
     is a noisy two-level waveform.  Sliced with hysteresis it gives the
     instants where the sent tone changes, which lie on multiples of the symbol
     period; the spectrum of that impulse train has lines at the symbol rate
-    and its harmonics, the fundamental the strongest once timing jitter
-    is present.  The strongest line between a quarter and four times the tone
-    spacing (and below fs/2) is taken.
+    and its harmonics.  The strongest line between a quarter and four times
+    the tone spacing (and below fs/2) is found, then the lowest of its
+    sub-multiples that still carries a line is the symbol rate.
 
     Returns
     -------
@@ -812,19 +822,23 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -
         y = x * np.exp(-2j * np.pi * f * n / sample_rate_hz)
         c = np.concatenate(([0.0], np.cumsum(y)))
         d += sgn * np.abs(c[m:] - c[:-m]) ** 2
-    h = 0.25 * np.median(np.abs(d))
+    h = 0.6 * np.median(np.abs(d))
     # hysteresis slicer: state changes only when d crosses +-h
     state = np.where(d > h, 1, np.where(d < -h, -1, 0))
     nz = np.flatnonzero(state)
     if nz.size < 4:
         return None
     filled = state[nz][np.maximum(np.searchsorted(nz, np.arange(len(d)), side="right") - 1, 0)]
-    trans = np.flatnonzero(np.diff(filled) != 0).astype(float) + 1.0
+    trans = np.flatnonzero(np.diff(filled) != 0) + 1
     if trans.size < 8:
         return None
+    # noise makes the slicer chatter: a change within m samples of the last
+    # one is the same transition
+    keep = np.concatenate(([True], np.diff(trans) >= m))
+    trans = trans[keep]
     # the window starts m samples early: the mid-crossing sits m/2 before the boundary
     imp = np.zeros(len(d))
-    imp[trans.astype(int)] = 1.0
+    imp[trans] = 1.0
     imp -= imp.mean()
     nfft = int(2 ** np.ceil(np.log2(len(imp) * 2)))
     spec = np.abs(np.fft.rfft(imp, n=nfft)) ** 2
@@ -834,4 +848,19 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -
         return None
     i = int(sel[np.argmax(spec[sel])])
     step = freqs[1] - freqs[0]
-    return float(freqs[0] + _parabolic_peak(spec, i) * step)
+    best = float(freqs[0] + _parabolic_peak(spec, i) * step)
+    # Without jitter every harmonic is as strong as the fundamental: take the
+    # lowest sub-multiple R/k that still carries a line (>= 30% of the
+    # strongest, and well above the continuous part of the spectrum).
+    floor = np.median(spec[sel])
+    top = spec[i]
+    for k in range(6, 1, -1):
+        cand = best / k
+        if cand < spacing / 4:
+            continue
+        j = int(round(cand / step))
+        lo, hi = max(j - 2, 0), min(j + 3, len(spec))
+        jj = lo + int(np.argmax(spec[lo:hi]))
+        if spec[jj] >= 0.3 * top and spec[jj] > 8 * floor:
+            return float(freqs[0] + _parabolic_peak(spec, jj) * step)
+    return best
