@@ -124,6 +124,9 @@ class AnalysisResult:
     spectrum_hz: np.ndarray
     spectrum_db: np.ndarray
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    spectrogram: np.ndarray | None = None      # (frames, cells) power, thinned for figures
+    spectrogram_frame: int = 1024              # samples per spectrogram frame before thinning
+    band_hz: tuple[float, float] | None = None
     dc_offset: complex = 0j               # mean of the samples, removed before analysis (full scale)
     clipped_fraction: float | None = None  # share of samples at the converter limit (integer formats)
 
@@ -137,21 +140,22 @@ class AnalysisResult:
 # --------------------------------------------------------------------------- helpers
 def _check_hints(cap: Capture, opts: AnalysisOptions) -> None:
     fs = cap.sample_rate_hz
-    if opts.tones_hz is None or opts.symbol_rate_hz is None:
-        raise InputError("tone and symbol-rate hints are needed", cap.path,
-                         "give --tones F0,F1 and --baud R (Hz)")
+    if opts.symbol_rate_hz is not None:
+        rs = opts.symbol_rate_hz
+        if rs <= 0 or rs > fs / 2:
+            raise InputError(f"symbol rate {rs:g} Hz is not between 0 and half the sample rate "
+                             f"({fs / 2:g} Hz)", cap.path, "check --baud")
+    if opts.tones_hz is None:
+        return
     f0, f1 = opts.tones_hz
     rs = opts.symbol_rate_hz
     if not f0 < f1:
         raise InputError(f"--tones must be F0,F1 with F0 < F1, got {f0:g},{f1:g}", cap.path)
-    if rs <= 0 or rs > fs / 2:
-        raise InputError(f"symbol rate {rs:g} Hz is not between 0 and half the sample rate "
-                         f"({fs / 2:g} Hz)", cap.path, "check --baud")
     lo, hi = (0.0, fs / 2) if cap.kind == "audio" else (-fs / 2, fs / 2)
     if f0 < lo or f1 > hi:
         raise InputError(f"tones {f0:g},{f1:g} Hz lie outside the sample band "
                          f"[{lo:g}, {hi:g}] Hz", cap.path, "check --tones (baseband Hz for I/Q, audio Hz for audio)")
-    if f1 - f0 < 0.25 * rs:
+    if rs is not None and f1 - f0 < 0.25 * rs:
         raise InputError(f"tones {f0:g},{f1:g} Hz are closer than a quarter of the symbol rate",
                          cap.path, "check --tones and --baud")
 
@@ -316,11 +320,11 @@ def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------- one burst
-def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: AnalysisOptions,
+def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: float,
                             noise_var: float, min_symbols: int = MIN_SYMBOLS):
     """Timing on the span, then symbol-level segmentation into bursts."""
-    tones = tuple(float(f) for f in opts.tones_hz)
-    rs = float(opts.symbol_rate_hz)
+    tones = tuple(float(f) for f in tones)
+    rs = float(rs)
     tm = acquire.estimate_symbol_timing(x, x_start, fs, tones, rs)
     grid = acquire.grid_for_span(tm.phase_sample, tm.symbol_rate_hz, fs, x_start, x_start + len(x) - 1)
     if grid.n_symbols < 1:
@@ -333,11 +337,11 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, opts: Analys
 
 def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: branches.SymbolGrid,
                    first: int, stop: int, opts: AnalysisOptions, bits_text: str | None,
-                   full_scale: float) -> BurstResult:
-    rs_hint = float(opts.symbol_rate_hz)
+                   full_scale: float, start_tones, start_rate: float) -> BurstResult:
+    rs_hint = float(start_rate)
     sps = grid0.samples_per_symbol
     grid = branches.symbol_grid(grid0.starts[first], sps, stop - first)
-    tones = tuple(float(f) for f in opts.tones_hz)
+    tones = tuple(float(f) for f in start_tones)
     # timing and rate on this burst alone (the span may have held several)
     lo = max(0, int(np.floor(grid.first_start)) - x_start - int(sps))
     hi = min(len(x), int(np.ceil(grid.stop)) - x_start + int(sps))
@@ -372,6 +376,13 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         out = branches.correlate(x, x_start, grid, tones, fs)
         dec = decide.square_law(out.z)
         rho = branches.template_correlation(tones, fs, grid.window)
+        ec, low_one = _count(dec, ref)
+    # burst edges to the symbol: extend or trim by the presence likelihood of each edge symbol
+    edged = _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref)
+    if edged is not None:
+        grid = edged
+        out = branches.correlate(x, x_start, grid, tones, fs)
+        dec = decide.square_law(out.z)
         ec, low_one = _count(dec, ref)
     if ec is not None and ec.synced and ec.bits > 0:
         sent = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
@@ -412,6 +423,67 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         nominal_tones_hz=opts.tones_hz, checks=checks, trend=trend, loss_parts=parts, blind_ber=blind)
 
 
+EDGE_SYMBOLS = 4   # symbols examined on each side of each burst edge
+
+
+def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
+    """Move each burst edge by whole symbols where the edge symbols say so.
+
+    For every symbol within ``EDGE_SYMBOLS`` of an edge (inside and outside),
+    the log-likelihood ratio of "the burst's tone is present" against "noise
+    only" is ``ln I0(2 g r / s2) - g^2 / s2`` with ``r`` the envelope on the
+    branch of the tone that symbol should carry -- the pattern's bit when the
+    pattern is known, the decided tone otherwise -- and ``g``, ``s2`` the
+    signal amplitude and complex noise variance fitted on the burst.  The
+    edge moves outwards over symbols with a positive ratio and inwards over
+    symbols with a negative one.
+
+    Returns the new grid, or None when nothing changes.
+    """
+    n = grid.n_symbols
+    if n < 4 * EDGE_SYMBOLS:
+        return None
+    sps = grid.samples_per_symbol
+    # extended grid, as far as the samples allow
+    pre = EDGE_SYMBOLS
+    while pre > 0 and np.ceil(grid.first_start - pre * sps - 1e-9) < x_start:
+        pre -= 1
+    post = EDGE_SYMBOLS
+    while post > 0 and np.ceil(grid.first_start + (n + post - 1) * sps - 1e-9) + grid.window > x_start + len(x):
+        post -= 1
+    ext = branches.symbol_grid(grid.first_start - pre * sps, sps, n + pre + post)
+    z = branches.correlate(x, x_start, ext, tones, fs).z
+    dec_ext = decide.square_law(z)
+    bits = dec_ext
+    if ec is not None and ec.synced and ec.bits > 0:
+        ec_ext, _ = _count(dec_ext, ref)
+        if ec_ext.synced:
+            bits = ec_ext.expected.astype(np.int64)
+    # fitted levels from the burst's own symbols (decisions)
+    p = np.abs(out.z) ** 2
+    on = p[np.arange(n), dec]
+    off = p[np.arange(n), 1 - dec]
+    s2 = float(np.mean(off))
+    g2 = float(np.mean(on) - s2)
+    if not (g2 > 0 and s2 > 0):
+        return None
+    g = np.sqrt(g2)
+    r = np.abs(z[np.arange(ext.n_symbols), np.asarray(bits, np.int64) % 2])
+    llr = decide.log_i0(2 * g * r / s2) - g2 / s2
+    first, stop = pre, pre + n                  # current edges in the extended grid
+    while first > 0 and llr[first - 1] > 0:
+        first -= 1
+    while first < pre + EDGE_SYMBOLS and first < stop - 1 and llr[first] < 0:
+        first += 1
+    while stop < ext.n_symbols and llr[stop] > 0:
+        stop += 1
+    while stop > pre + n - EDGE_SYMBOLS and stop > first + 1 and llr[stop - 1] < 0:
+        stop -= 1
+    if (first, stop) == (pre, pre + n) or stop - first < MIN_SYMBOLS:
+        return None
+    return branches.symbol_grid(ext.starts[first], sps, stop - first)
+
+
 def _summary(bursts: list[BurstResult]) -> Summary:
     if not bursts:
         return Summary(None, None, float("nan"), None)
@@ -442,6 +514,45 @@ def _summary(bursts: list[BurstResult]) -> Summary:
 
 
 # --------------------------------------------------------------------------- entry points
+def _spectrogram(cap: Capture, read, progress) -> np.ndarray:
+    """Coarse spectrogram of the whole capture (frames of SPECTROGRAM_NFFT samples, 128 cells)."""
+    nfft = acquire.SPECTROGRAM_NFFT
+    block = nfft * 256
+    parts = []
+    pos = 0
+    while pos < cap.n_samples:
+        x = read(pos, block)
+        if len(x) == 0:
+            break
+        parts.append(acquire.spectrogram_cells(x, nfft).astype(np.float32))
+        pos += len(x)
+        if progress:
+            progress(pos, cap.n_samples)
+    return np.concatenate(parts) if parts else np.empty((0, acquire.SPECTROGRAM_CELLS), np.float32)
+
+
+def _thin_spectrogram(sg: np.ndarray, max_frames: int = 1200) -> np.ndarray:
+    """At most ``max_frames`` rows (block means) for the report figure."""
+    if sg.shape[0] <= max_frames:
+        return sg
+    k = int(np.ceil(sg.shape[0] / max_frames))
+    n = sg.shape[0] // k
+    return sg[:n * k].reshape(n, k, -1).mean(axis=1)
+
+
+def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path, start: int):
+    """Tones and symbol rate to start a region's acquisition from: hints, or blind estimates."""
+    tones = opts.tones_hz if opts.tones_hz is not None else acquire.blind_tones(x, fs, band)
+    rs = opts.symbol_rate_hz
+    if rs is None:
+        rs = acquire.blind_symbol_rate(x, fs, tones, band)
+        if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
+            warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
+                 "give --baud to analyse it")
+            return None
+    return (float(tones[0]), float(tones[1])), float(rs)
+
+
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
                     progress: Callable[[int, int], None] | None = None,
                     prior_warnings: tuple[str, ...] = ()) -> AnalysisResult:
@@ -451,15 +562,10 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     """
     _check_hints(cap, opts)
     fs = cap.sample_rate_hz
-    f0, f1 = opts.tones_hz
-    rs = float(opts.symbol_rate_hz)
-    sps = fs / rs
-    band = (f0 - rs, f1 + rs)
-    frame = acquire.frame_length(fs, rs)
-    nfft_psd = int(min(1024, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
+    nfft_psd = int(min(acquire.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
-        scan = _scan(cap, max(frame * BLOCK_FRAMES, 1 << 16))
+        scan = _scan(cap, 1 << 16)
         if cap.n_samples == 0 or scan.peak == 0:
             raise InputError("the capture holds no signal (all samples are zero)", cap.path,
                              "check the recording chain")
@@ -471,11 +577,34 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                      f"limit (|I| or |Q| >= {cap.clip_level:.4g} of full scale): the capture is clipped, so "
                      "tone energies and Eb/N0 are biased; lower the receiver gain")
         read = _reader(cap, scan.mean)
-        power, noise, freqs, psd = _power_trace(cap, band, frame, _noise_bands(cap, band, rs), nfft_psd,
-                                                progress, read)
+        # The band to watch: from the hints, or found in a spectrogram of the whole capture.
+        sgram = _spectrogram(cap, read, progress if opts.tones_hz is None else None)
+        if opts.tones_hz is not None:
+            f0, f1 = opts.tones_hz
+            guard = opts.symbol_rate_hz if opts.symbol_rate_hz is not None else f1 - f0
+            band = (f0 - guard, f1 + guard)
+        else:
+            band = acquire.occupied_band(sgram, fs, positive_only=cap.kind == "audio")
+            if band is None:
+                floor_db = 10 * np.log10(max(float(np.median(sgram)) * nfft_psd / nfft_psd, 1e-30)) \
+                    if sgram.size else float("-inf")
+                raise InputError(f"no tone bursts found above the noise floor ({floor_db:.1f} dBFS per "
+                                 f"sample)", cap.path, "check that the capture holds a transmission, or give "
+                                 "--tones and --baud")
+        bw = band[1] - band[0]
+        rs = opts.symbol_rate_hz
+        if rs is not None:
+            frame = acquire.frame_length(fs, rs)
+            guard_hz = rs
+        else:
+            frame = int(2 ** np.ceil(np.log2(max(16.0, 16.0 * fs / bw))))
+            guard_hz = 0.25 * bw
+        sps_min = fs / rs if rs is not None else max(2.0, fs / bw)
+        power, noise, freqs, psd = _power_trace(cap, band, frame, _noise_bands(cap, band, guard_hz), nfft_psd,
+                                                progress if opts.tones_hz is not None else None, read)
         bins = acquire.band_bins(fs, band, frame)
         trace = acquire.PowerTrace(power, noise, frame, bins, band)
-        spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps)
+        spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps_min)
         noise_var = floor * frame / max(bins, 1)       # complex noise variance per sample
         full_scale = 1.0
         floor_dbfs = float(10 * np.log10(noise_var)) if noise_var > 0 else float("-inf")
@@ -490,14 +619,19 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
             warn(f"{cap.path}: DC offset of {10 * np.log10(dc_power):.1f} dBFS "
                  f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale, {rel:.1f} dB against the "
                  f"rest of the signal); removed before analysis")
-        margin = 8 * frame + 4 * int(np.ceil(sps))
-        regions = _merge_spans(spans, gap=int(4 * sps), margin=margin, n_samples=cap.n_samples)
+        margin = 8 * frame + 4 * int(np.ceil(sps_min if rs is None else fs / rs))
+        regions = _merge_spans(spans, gap=int(4 * sps_min), margin=margin, n_samples=cap.n_samples)
         bursts: list[BurstResult] = []
         for a, b in regions:
             x = read(a, b - a).astype(np.complex128)
-            for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, opts, noise_var):
+            start = _starting_point(x, fs, band, opts, cap.path, a)
+            if start is None:
+                continue
+            tones0, rs0 = start
+            for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, tones0, rs0, noise_var):
                 bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
-                                             bits_text, full_scale))
+                                             bits_text, full_scale, tones0, rs0))
+        sps = sps_min
         if not bursts:
             # were there bursts, only too short?  Segment again, keeping runs of 2 symbols or more.
             short = _merge_spans(acquire.find_bursts(trace, 2 * sps)[0], gap=int(4 * sps), margin=margin,
@@ -505,11 +639,15 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
             longest = 0
             for a, b in short:
                 x = read(a, b - a).astype(np.complex128)
-                for _, first, stop in _acquire_bursts_in_span(x, a, fs, opts, noise_var, min_symbols=2):
+                start = _starting_point(x, fs, band, opts, cap.path, a)
+                if start is None:
+                    continue
+                for _, first, stop in _acquire_bursts_in_span(x, a, fs, start[0], start[1], noise_var,
+                                                              min_symbols=2):
                     longest = max(longest, stop - first)
             if 0 < longest < MIN_SYMBOLS:
                 raise InputError(f"bursts shorter than {MIN_SYMBOLS} symbols (the longest found is about "
-                                 f"{longest:.0f} symbols at {rs:g} Bd)", cap.path,
+                                 f"{longest:.0f} symbols)", cap.path,
                                  f"tonepair needs bursts of at least {MIN_SYMBOLS} symbols; check --baud")
             raise InputError(f"no tone bursts found above the noise floor ({floor_dbfs:.1f} dBFS "
                              f"per sample)", cap.path,
@@ -520,6 +658,7 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     spec_db = 10 * np.log10(np.maximum(psd, 1e-30))
     return AnalysisResult(capture=cap, options=opts, bursts=tuple(bursts), summary=summary,
                           noise_floor_dbfs=floor_dbfs, spectrum_hz=freqs, spectrum_db=spec_db,
+                          spectrogram=_thin_spectrogram(sgram), spectrogram_frame=nfft_psd, band_hz=band,
                           warnings=messages, dc_offset=complex(scan.mean), clipped_fraction=clipped_fraction)
 
 
