@@ -576,13 +576,14 @@ def branches_on_grid(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sa
 
 
 def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
-                  blocks: int = 4, span: float = 1.5, step: float = 0.125) -> SymbolGrid:
+                  blocks: int = 4, span: float | None = None, step: float | None = None) -> SymbolGrid:
     """Refine the symbol grid by maximising the correlator energy block by block.
 
     The spectral-line estimate of :func:`estimate_symbol_timing` leaves a
     timing error of a fraction of a sample, and its rate error makes the
     timing drift across a long burst.  Here the grid is shifted by ``delta``
-    samples (``-span .. span`` in ``step``), the total energy
+    samples (``-span .. span`` in ``step``; by default a quarter of a symbol
+    or 1.5 samples, whichever is more), the total energy
     ``sum |z0|^2 + |z1|^2`` of each of ``blocks`` consecutive parts of the
     burst is computed for every shift, the best shift of each part is taken
     as the centre of its plateau (hard keying sampled at integer instants is
@@ -599,6 +600,13 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     n = grid.n_symbols
     if n < 4 * blocks:
         blocks = max(1, n // 4)
+    sps = grid.samples_per_symbol
+    if span is None:
+        # continuous-phase keying gives the spectral line a weaker hold on the
+        # timing: search a quarter of a symbol, at least 1.5 samples
+        span = max(1.5, 0.25 * sps)
+    if step is None:
+        step = max(0.125, span / 24)
     deltas = np.arange(-span, span + step / 2, step)
     edges = np.linspace(0, n, blocks + 1).astype(int)
     energy = np.zeros((len(deltas), blocks))
@@ -791,14 +799,55 @@ def blind_tones(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, floa
     return (float(a), float(b))
 
 
-def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -> float | None:
+def tone_transitions(x: np.ndarray, sample_rate_hz: float, tones_hz) -> tuple[np.ndarray, int]:
+    """Sample indices (relative to ``x``) where the sent tone changes, and the window used.
+
+    With tones ``f0, f1`` and a window of ``m = fs / (2 (f1 - f0))`` samples
+    (half the time the two tones take to separate, so at most about half a
+    symbol for the usual spacings), ``d[n] = |S1(n)|^2 - |S0(n)|^2`` is a
+    noisy two-level waveform.  A hysteresis slicer (thresholds at 0.6 of the
+    median ``|d|``) with a dead time of ``m`` gives the instants of change.
+    The returned index is that of the first window past the threshold; the
+    boundary itself lies about ``m/2`` samples later.
+    """
+    spacing = abs(float(tones_hz[1]) - float(tones_hz[0]))
+    if spacing <= 0:
+        return np.empty(0, np.int64), 1
+    m = int(max(1, round(0.5 * sample_rate_hz / spacing)))
+    if len(x) < 16 * m:
+        return np.empty(0, np.int64), m
+    n = np.arange(len(x))
+    d = np.zeros(len(x) - m + 1)
+    for sgn, f in ((-1.0, tones_hz[0]), (1.0, tones_hz[1])):
+        y = x * np.exp(-2j * np.pi * f * n / sample_rate_hz)
+        c = np.concatenate(([0.0], np.cumsum(y)))
+        d += sgn * np.abs(c[m:] - c[:-m]) ** 2
+    h = 0.6 * np.median(np.abs(d))
+    state = np.where(d > h, 1, np.where(d < -h, -1, 0))
+    nz = np.flatnonzero(state)
+    if nz.size < 4:
+        return np.empty(0, np.int64), m
+    filled = state[nz][np.maximum(np.searchsorted(nz, np.arange(len(d)), side="right") - 1, 0)]
+    trans = np.flatnonzero(np.diff(filled) != 0) + 1
+    if trans.size:
+        keep = np.concatenate(([True], np.diff(trans) >= m))
+        trans = trans[keep]
+    return trans, m
+
+
+def _impulse_spectrum(trans: np.ndarray, length: int, sample_rate_hz: float):
+    imp = np.zeros(length)
+    imp[trans] = 1.0
+    imp -= imp.mean()
+    nfft = int(2 ** np.ceil(np.log2(length * 2)))
+    spec = np.abs(np.fft.rfft(imp, n=nfft)) ** 2
+    return np.fft.rfftfreq(nfft, 1.0 / sample_rate_hz), spec
+
+
+def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz=None) -> float | None:
     """Symbol rate with no hint: the line of the tone-transition instants.
 
-    With coarse tones ``f0, f1`` and a window of ``m = fs / (2 (f1 - f0))``
-    samples (half the time it takes the two tones to separate, so at most
-    about half a symbol for the usual spacings), ``d[n] = |S1(n)|^2 - |S0(n)|^2``
-    is a noisy two-level waveform.  Sliced with hysteresis it gives the
-    instants where the sent tone changes, which lie on multiples of the symbol
+    The instants from :func:`tone_transitions` lie on multiples of the symbol
     period; the spectrum of that impulse train has lines at the symbol rate
     and its harmonics.  The strongest line between a quarter and four times
     the tone spacing (and below fs/2) is found, then the lowest of its
@@ -807,42 +856,13 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -
     Returns
     -------
     float or None
-        Coarse symbol rate (refined by :func:`estimate_symbol_timing`), or
-        None with too few transitions.
+        Coarse symbol rate (refined later), or None with too few transitions.
     """
     spacing = abs(float(tones_hz[1]) - float(tones_hz[0]))
-    if spacing <= 0:
-        return None
-    m = int(max(1, round(0.5 * sample_rate_hz / spacing)))
-    n = np.arange(len(x))
-    if len(x) < 16 * m:
-        return None
-    d = np.zeros(len(x) - m + 1)
-    for sgn, f in ((-1.0, tones_hz[0]), (1.0, tones_hz[1])):
-        y = x * np.exp(-2j * np.pi * f * n / sample_rate_hz)
-        c = np.concatenate(([0.0], np.cumsum(y)))
-        d += sgn * np.abs(c[m:] - c[:-m]) ** 2
-    h = 0.6 * np.median(np.abs(d))
-    # hysteresis slicer: state changes only when d crosses +-h
-    state = np.where(d > h, 1, np.where(d < -h, -1, 0))
-    nz = np.flatnonzero(state)
-    if nz.size < 4:
-        return None
-    filled = state[nz][np.maximum(np.searchsorted(nz, np.arange(len(d)), side="right") - 1, 0)]
-    trans = np.flatnonzero(np.diff(filled) != 0) + 1
+    trans, m = tone_transitions(x, sample_rate_hz, tones_hz)
     if trans.size < 8:
         return None
-    # noise makes the slicer chatter: a change within m samples of the last
-    # one is the same transition
-    keep = np.concatenate(([True], np.diff(trans) >= m))
-    trans = trans[keep]
-    # the window starts m samples early: the mid-crossing sits m/2 before the boundary
-    imp = np.zeros(len(d))
-    imp[trans] = 1.0
-    imp -= imp.mean()
-    nfft = int(2 ** np.ceil(np.log2(len(imp) * 2)))
-    spec = np.abs(np.fft.rfft(imp, n=nfft)) ** 2
-    freqs = np.fft.rfftfreq(nfft, 1.0 / sample_rate_hz)
+    freqs, spec = _impulse_spectrum(trans, len(x) - m + 1, sample_rate_hz)
     sel = np.flatnonzero((freqs >= spacing / 4) & (freqs <= min(4 * spacing, 0.5 * sample_rate_hz)))
     if sel.size == 0:
         return None
@@ -864,3 +884,150 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz) -
         if spec[jj] >= 0.3 * top and spec[jj] > 8 * floor:
             return float(freqs[0] + _parabolic_peak(spec, jj) * step)
     return best
+
+
+def transition_line_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz,
+                           rate_hint_hz: float, search_ppm: float = 3000.0) -> TimingEstimate | None:
+    """Symbol rate near the hint and timing from the tone-transition impulse train.
+
+    The counterpart of :func:`estimate_symbol_timing` for continuous-phase
+    keying, whose whole-symbol energy line is weak: the line of the
+    transition instants (see :func:`tone_transitions`) near the hint gives the
+    rate, and its phase the timing (corrected for the slicer's lag of about
+    0.3 window past the mid-point).
+    """
+    trans, m = tone_transitions(x, sample_rate_hz, tones_hz)
+    if trans.size < 8:
+        return None
+    lo = rate_hint_hz * (1 - search_ppm * 1e-6)
+    hi = rate_hint_hz * (1 + search_ppm * 1e-6)
+    length = len(x) - m + 1
+    res = sample_rate_hz / length
+    npts = int(min(4096, max(64, np.ceil(8 * (hi - lo) / res))))
+    imp = np.zeros(length)
+    imp[trans] = 1.0
+    imp -= imp.mean()
+    spec = signal.zoom_fft(imp, [lo, hi], m=npts, fs=sample_rate_hz, endpoint=True)
+    pw = np.abs(spec) ** 2
+    i = int(np.argmax(pw))
+    rate = lo + _parabolic_peak(pw, i) * (hi - lo) / (npts - 1)
+    c = np.sum(np.exp(-2j * np.pi * rate * trans / sample_rate_hz))
+    sps = sample_rate_hz / rate
+    centre = (-np.angle(c) / (2 * np.pi)) * sps            # where the slicer fires, mod sps
+    # window [n, n+m) balanced at n = ceil(t) - m/2; the slicer fires ~0.3 m later
+    phase = x_start + centre + m / 2 - 0.3 * m - 0.5
+    far = np.abs(np.arange(npts) - i) > max(4, npts // 16)
+    ref = np.median(pw[far]) if far.any() else np.median(pw)
+    return TimingEstimate(float(rate), float(phase), float(pw[i] / max(ref, 1e-300)))
+
+
+def symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz, rate_hint_hz: float,
+                  search_ppm: float = 3000.0) -> TimingEstimate:
+    """Rate and timing: the energy line, or the transition line when the energy line is weak.
+
+    The whole-symbol energy line (:func:`estimate_symbol_timing`) is the
+    sharper one for phase-discontinuous keying; for continuous-phase keying it
+    can be weak (quality below 20) and the transition line
+    (:func:`transition_line_timing`) takes over when it is stronger.
+    """
+    tm = estimate_symbol_timing(x, x_start, sample_rate_hz, tones_hz, rate_hint_hz, search_ppm)
+    if tm.line_snr >= 20:
+        return tm
+    alt = transition_line_timing(x, x_start, sample_rate_hz, tones_hz, rate_hint_hz, search_ppm)
+    if alt is not None and alt.line_snr > tm.line_snr:
+        return alt
+    return tm
+
+
+def transition_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
+                      tone_index: np.ndarray, blocks: int = 8, iterations: int = 5) -> SymbolGrid:
+    """Iterate :func:`_transition_timing_once` until the start moves by < 0.02 sample.
+
+    Each pass searches a window of half a symbol either side of the expected
+    boundaries, which pulls its answer towards the grid it starts from; a few
+    passes remove that pull.
+    """
+    g = grid
+    for _ in range(iterations):
+        new = _transition_timing_once(x, x_start, g, tones_hz, sample_rate_hz, tone_index, blocks)
+        moved = abs(new.first_start - g.first_start) + abs(new.samples_per_symbol - g.samples_per_symbol) * g.n_symbols
+        g = new
+        if moved < 0.02:
+            break
+    return g
+
+
+def _transition_timing_once(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
+                            tone_index: np.ndarray, blocks: int = 8) -> SymbolGrid:
+    """Refine the symbol grid from the instants where the sent tone changes.
+
+    ``d[n] = |S1(n)|^2 - |S0(n)|^2`` over a window of ``m = sps/2`` samples
+    steps from one sign to the other at every change of tone.  Around each
+    expected boundary (from ``tone_index``: decided or known tones) the step is
+    located by the least-squares change point of ``d`` (the minimum of its
+    prefix sum after orienting the step upwards).  The offsets of all
+    boundaries from the grid are combined in ``blocks`` medians and a straight
+    line through them corrects the start and the period.  Unlike the energy
+    of a whole-symbol window, this does not flatten for continuous-phase
+    keying, where a slightly misplaced window still adds the next symbol's
+    tone almost coherently.
+
+    Returns
+    -------
+    SymbolGrid
+        The refined grid, or ``grid`` when there are too few tone changes or
+        the samples do not cover them.
+
+    References
+    ----------
+    Page (1954) and Hinkley, "Inference about the change-point in a sequence
+    of random variables," Biometrika 57, 1970 (from memory).
+    """
+    b = np.asarray(tone_index).astype(np.int64)
+    n_sym = grid.n_symbols
+    sps = grid.samples_per_symbol
+    m = int(max(2, round(sps / 2)))
+    w = int(max(2, round(sps / 2)))
+    k = np.flatnonzero(b[1:] != b[:-1]) + 1
+    if k.size < 8:
+        return grid
+    starts = grid.starts[k]
+    n0 = np.round(starts - m / 2).astype(np.int64) - w          # capture index of the first d sample
+    lo = int(n0.min()) - x_start
+    hi = int(n0.max()) + 2 * w + m + 1 - x_start
+    if lo < 0 or hi > len(x):
+        inside = (n0 - x_start >= 0) & (n0 + 2 * w + m + 1 - x_start <= len(x))
+        k, starts, n0 = k[inside], starts[inside], n0[inside]
+        if k.size < 8:
+            return grid
+        lo = int(n0.min()) - x_start
+        hi = int(n0.max()) + 2 * w + m + 1 - x_start
+    seg = x[lo:hi]
+    nn = np.arange(lo, hi) + x_start
+    d = np.zeros(len(seg) - m + 1)
+    for sgn, f in ((-1.0, tones_hz[0]), (1.0, tones_hz[1])):
+        y = seg * np.exp(-2j * np.pi * f * nn / sample_rate_hz)
+        c = np.concatenate(([0.0], np.cumsum(y)))
+        d += sgn * np.abs(c[m:] - c[:-m]) ** 2
+    idx = (n0 - x_start - lo)[:, None] + np.arange(2 * w + 1)[None, :]
+    v = d[idx] * np.where(b[k] == 1, 1.0, -1.0)[:, None]         # step upwards at the boundary
+    v = v - np.median(v, axis=1, keepdims=True)
+    prefix = np.cumsum(v, axis=1)
+    j = np.argmin(prefix, axis=1) + 1                            # first sample after the step
+    # window [n, n+m) is balanced across the boundary when n + m/2 = ceil(t_k);
+    # the grid's convention puts t_k half a sample before that
+    est = n0 + j + m / 2 - 0.5
+    off = est - starts
+    off = off[np.abs(off - np.median(off)) <= 0.5 * sps]
+    kk = k[np.abs(est - starts - np.median(est - starts)) <= 0.5 * sps]
+    if off.size < 8:
+        return grid
+    nb = int(max(1, min(blocks, off.size // 16)))
+    edges = np.linspace(0, off.size, nb + 1).astype(int)
+    med = np.array([np.median(off[a:c]) for a, c in zip(edges[:-1], edges[1:])])
+    pos = np.array([np.mean(kk[a:c]) for a, c in zip(edges[:-1], edges[1:])])
+    if nb >= 2:
+        slope, icpt = np.polyfit(pos, med, 1)
+    else:
+        slope, icpt = 0.0, float(med[0])
+    return symbol_grid(grid.first_start + icpt, sps + slope, n_sym)

@@ -218,3 +218,25 @@ def branch_stats(moments: GroupMoments, rho_abs: float, energy_scale: float,
         ebn0=float(ebn0) if ebn0 > 0 else float("nan"), ebn0_db=_db(ebn0),
         ebn0_db_ci95=(float(lo), float(hi)), ebn0_tone_db=tone, imbalance_db=imb,
         data_aided=bool(data_aided))
+
+
+def phase_continuity(z: np.ndarray, tone_index: np.ndarray) -> float:
+    """How much the carrier phase carries over between symbols (0 = none, 1 = fully).
+
+    With templates referred to absolute sample time, a continuous-phase
+    transmitter gives the same phase to ``z`` of consecutive symbols that send
+    the same tone; a transmitter with a new phase per symbol gives unrelated
+    phases.  The statistic is ``|sum z_k conj(z_{k-1})| / sum |z_k z_{k-1}|``
+    over such pairs, on the branch of the tone sent: near 1 for
+    continuous-phase keying, about ``1/sqrt(pairs)`` otherwise.
+    """
+    z = np.asarray(z)
+    b = np.asarray(tone_index).astype(np.int64)
+    if len(b) < 3:
+        return float("nan")
+    same = np.flatnonzero(b[1:] == b[:-1]) + 1
+    if same.size < 4:
+        return float("nan")
+    zz = z[same, b[same]] * np.conj(z[same - 1, b[same]])
+    den = np.sum(np.abs(zz))
+    return float(np.abs(np.sum(zz)) / den) if den > 0 else float("nan")

@@ -83,6 +83,7 @@ class BurstResult:
     trend: diagnostics.Trend | None = None
     loss_parts: diagnostics.LossParts | None = None
     blind_ber: tuple[float, tuple[float, float]] | None = None
+    phase_continuity: float = float("nan")
 
     @property
     def n_symbols(self) -> int:
@@ -325,7 +326,7 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: f
     """Timing on the span, then symbol-level segmentation into bursts."""
     tones = tuple(float(f) for f in tones)
     rs = float(rs)
-    tm = acquire.estimate_symbol_timing(x, x_start, fs, tones, rs)
+    tm = acquire.symbol_timing(x, x_start, fs, tones, rs)
     grid = acquire.grid_for_span(tm.phase_sample, tm.symbol_rate_hz, fs, x_start, x_start + len(x) - 1)
     if grid.n_symbols < 1:
         return []
@@ -345,20 +346,33 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     # timing and rate on this burst alone (the span may have held several)
     lo = max(0, int(np.floor(grid.first_start)) - x_start - int(sps))
     hi = min(len(x), int(np.ceil(grid.stop)) - x_start + int(sps))
-    tm = acquire.estimate_symbol_timing(x[lo:hi], x_start + lo, fs, tones, rs_hint)
+    tm = acquire.symbol_timing(x[lo:hi], x_start + lo, fs, tones, rs_hint)
     sps2 = fs / tm.symbol_rate_hz
     k = np.round((grid.first_start - tm.phase_sample) / sps2)
     cand = branches.symbol_grid(tm.phase_sample + k * sps2, sps2, grid.n_symbols)
     if cand.first_samples[0] >= x_start and cand.first_samples[-1] + cand.window <= x_start + len(x):
         grid = cand
-    # alternate: timing by the receiver's own energy metric, then tones from
-    # the symbols that carried them (decision-directed)
+    # Keying: a continuous-phase transmitter keeps the phase across symbols.
+    # Its timing comes from the instants the tone changes (a whole-symbol
+    # energy metric flattens there); with a new phase per symbol the
+    # receiver's own energy metric is the sharper one.
+    out = branches.correlate(x, x_start, grid, tones, fs)
+    dec = decide.square_law(out.z)
+    continuity = estimate.phase_continuity(out.z, dec)
+    continuous = bool(np.isfinite(continuity) and continuity > 0.5)
+
+    def retime(g, tn, bits):
+        if continuous:
+            return acquire.transition_timing(x, x_start, g, tn, fs, bits)
+        return acquire.refine_timing(x, x_start, g, tn, fs)
+
+    # alternate timing and tones from the symbols that carried them (decision-directed)
     for _ in range(2):
-        grid = acquire.refine_timing(x, x_start, grid, tones, fs)
+        grid = retime(grid, tones, dec)
         out = branches.correlate(x, x_start, grid, tones, fs)
         dec = decide.square_law(out.z)
         tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
-    grid = acquire.refine_timing(x, x_start, grid, tones, fs)
+    grid = retime(grid, tones, dec)
     out = branches.correlate(x, x_start, grid, tones, fs)
     dec = decide.square_law(out.z)
 
@@ -372,6 +386,8 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         # with the pattern known, estimate the tones once more from the symbols
         # that truly carried them (wrong decisions would pull both inwards)
         known = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
+        if continuous:
+            grid = acquire.transition_timing(x, x_start, grid, tones, fs, known)
         tones = acquire.refine_tones(_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
         out = branches.correlate(x, x_start, grid, tones, fs)
         dec = decide.square_law(out.z)
@@ -420,7 +436,8 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         outputs=out, decisions=dec, sent=sent, stats=stats, moments=mom, rho=rho, ber=ber,
         ber_theory=ber_th, theory_model=model, loss=loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
-        nominal_tones_hz=opts.tones_hz, checks=checks, trend=trend, loss_parts=parts, blind_ber=blind)
+        nominal_tones_hz=opts.tones_hz, checks=checks, trend=trend, loss_parts=parts, blind_ber=blind,
+        phase_continuity=float(estimate.phase_continuity(out.z, sent)))
 
 
 EDGE_SYMBOLS = 4   # symbols examined on each side of each burst edge

@@ -184,3 +184,38 @@ def waterfall(sweep: dict):
     _style(ax)
     ax.legend(fontsize=7, frameon=False, loc="lower left")
     return fig
+
+
+def spectrogram(result):
+    """Spectrogram of the whole capture with each burst boxed and its measured tones marked."""
+    from matplotlib.patches import Rectangle
+
+    sg = result.spectrogram
+    fig, ax = plt.subplots(figsize=(8.0, 3.4))
+    if sg is None or sg.size == 0:
+        ax.text(0.5, 0.5, "capture too short for a spectrogram", ha="center", va="center", transform=ax.transAxes)
+        return fig
+    fs = result.capture.sample_rate_hz
+    n = result.capture.n_samples
+    cells = sg.shape[1]
+    edges = np.linspace(-fs / 2, fs / 2, cells + 1)
+    db = 10 * np.log10(np.maximum(sg, 1e-30))
+    lo_db = np.percentile(db, 5)
+    hi_db = np.percentile(db, 99.9)
+    f_lo, f_hi = (0.0, fs / 2) if result.capture.kind == "audio" else (-fs / 2, fs / 2)
+    ax.imshow(db.T, origin="lower", aspect="auto", cmap="bone_r", vmin=lo_db, vmax=hi_db,
+              extent=(0, n / fs, edges[0] / 1e3, edges[-1] / 1e3), interpolation="nearest")
+    for b in result.bursts:
+        t0, t1 = b.grid.first_start / fs, b.grid.stop / fs
+        pad = 0.5 * b.symbol_rate_hz
+        f0, f1 = b.tones_hz[0] - pad, b.tones_hz[1] + pad
+        ax.add_patch(Rectangle((t0, f0 / 1e3), t1 - t0, (f1 - f0) / 1e3, fill=False, edgecolor=THEORY,
+                               linewidth=1.2))
+        for i, ft in enumerate(b.tones_hz):
+            ax.plot([t0, t1], [ft / 1e3, ft / 1e3], color=TONE_COLOURS[i], linewidth=1.0)
+        ax.text(t0, f1 / 1e3, f" {b.index}", color=THEORY, fontsize=7, va="bottom")
+    ax.set_ylim(f_lo / 1e3, f_hi / 1e3)
+    ax.set_xlabel("time (s)", fontsize=8)
+    ax.set_ylabel("frequency (kHz)" + (" audio" if result.capture.kind == "audio" else " from centre"), fontsize=8)
+    ax.tick_params(labelsize=8)
+    return fig

@@ -45,6 +45,7 @@ def render_html(result, report: dict) -> str:
     """The report page as one HTML string."""
     figs = {
         "spectrum": figures.to_png_base64(figures.spectrum(result)),
+        "spectrogram": figures.to_png_base64(figures.spectrogram(result)),
         "envelopes": [figures.to_png_base64(figures.envelope_histograms(result, i))
                       for i in range(min(len(result.bursts), 4))],
         "ber": figures.to_png_base64(figures.ber_curve(result)),

@@ -89,6 +89,9 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "implementation_loss_db": lv,
         "implementation_loss_db_ci95": lci,
         "power_dbfs": _num(b.power_dbfs),
+        "phase_continuity": _num(b.phase_continuity),
+        "keying": ("continuous-phase" if b.phase_continuity > 0.5 else "phase-discontinuous")
+        if np.isfinite(b.phase_continuity) else None,
         "timing_quality": _num(b.timing_quality),
     }
     d["diagnostics"] = {

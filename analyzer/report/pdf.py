@@ -135,7 +135,7 @@ def _pdf_bytes(pages, title: str) -> bytes:
 def render_pdf(result, report: dict) -> bytes:
     """The analysis report as PDF bytes: summary page, spectrum, envelope histograms, BER curve."""
     generated = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
-    pages = [summary_page(report, generated), figures.spectrum(result)]
+    pages = [summary_page(report, generated), figures.spectrogram(result), figures.spectrum(result)]
     pages += [figures.envelope_histograms(result, i) for i in range(min(len(result.bursts), 4))]
     pages.append(figures.ber_curve(result))
     return _pdf_bytes(pages, f"tonepair report: {report['capture']['path']}")
