@@ -529,7 +529,7 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, z: np.ndarray, se
         e = float(np.sum(np.abs(m) ** 2)) - (L - 1) * max(float(nv[i]), 0.0) / k.size
         e = max(e, c)
         coll[i], tot[i] = c, e
-        loss[i] = -10 * np.log10(c / e) if e > 0 and c > 0 else np.nan
+        loss[i] = max(0.0, -10 * np.log10(c / e)) if e > 0 and c > 0 else np.nan
     mean = -10 * np.log10(coll.sum() / tot.sum()) if tot.sum() > 0 and coll.sum() > 0 else float("nan")
     # noise per sample: each symbol minus its projection on its tone's measured pulse
     res = []
