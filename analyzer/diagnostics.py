@@ -23,7 +23,7 @@ from . import branches, theory
 __all__ = ["ModelCheck", "model_checks", "ebn0_trend", "blind_ber", "LossParts", "loss_parts",
            "output_correlations", "cross_branch_check", "ber_likelihood", "DecisionGain",
            "decision_gain", "PulseShape", "measured_pulse", "Leakage", "leakage",
-           "NoiseCorrelation", "noise_correlation", "noise_window_outputs", "idle_power_check"]
+           "NoiseCorrelation", "noise_correlation", "noise_window_outputs", "window_referenced", "idle_power_check"]
 
 FLAG_LEVEL = 0.01   # a check is flagged when its p-value is below this
 
@@ -459,10 +459,10 @@ class PulseShape:
     noise_per_sample: float
 
 
-def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, z: np.ndarray, sent: np.ndarray,
+def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, sent: np.ndarray,
                    tones_hz, sample_rate_hz: float, noise_var_complex,
-                   keep: float = 0.5) -> PulseShape:
-    """Average the high-confidence symbols of each tone into a measured pulse.
+                   ) -> PulseShape:
+    """Average the symbols of each tone into a measured pulse.
 
     Parameters
     ----------
@@ -470,8 +470,6 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, z: np.ndarray, se
         (n, L) samples of every symbol.
     sample_index : numpy.ndarray
         (n, L) capture sample index of every entry of ``rows``.
-    z : numpy.ndarray
-        (n, 2) correlator outputs (templates referred to absolute sample time).
     sent : numpy.ndarray
         Tone sent per symbol (known or decided).
     tones_hz : (float, float)
@@ -480,9 +478,6 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, z: np.ndarray, se
     noise_var_complex : array_like
         (2,) fitted ``E|n_i|^2`` per unit-energy branch (= complex noise per
         sample for white noise); used to remove the noise bias of ``||m||^2``.
-    keep : float
-        Fraction of each tone's symbols kept: those with the largest ratio
-        ``|z_sent| / |z_other|``.
 
     Returns
     -------
@@ -491,10 +486,16 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, z: np.ndarray, se
     Notes
     -----
     Symbol ``k`` of tone ``i`` is derotated as
-    ``y_k = x_k exp(-j 2 pi f_i n / fs) exp(-j arg z_i,k)``, so every symbol
-    adds in phase.  The noise left in the mean has energy ``(L-1) s^2 / K``
-    outside the template direction, which is subtracted from ``||m||^2``.
-    The loss follows from the Cauchy-Schwarz inequality.
+    ``y_k = x_k exp(-j 2 pi f_i n / fs) exp(-j phi_k)``, so every symbol adds
+    in phase.  ``phi_k`` is the phase of the tone over the odd samples for the
+    even ones and over the even samples for the odd ones: a phase taken from
+    the same samples (or a selection of symbols by their own envelope) would
+    pull the noise into the template direction and make any pulse look
+    rectangular.  The phase error only scales the mean, which the loss ignores.
+    All symbols of the tone are used (decisions errors are rare where the
+    check matters).  The noise left in the mean, ``L s^2 / K`` in both
+    ``||m||^2`` and ``|sum m|^2``, is subtracted.  The loss follows from the
+    Cauchy-Schwarz inequality.
 
     References
     ----------
@@ -503,34 +504,34 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, z: np.ndarray, se
     """
     rows = np.asarray(rows)
     sent = np.asarray(sent).astype(int)
-    z = np.asarray(z)
     n, L = rows.shape
     f = np.asarray(tones_hz, float)
     nv = np.asarray(noise_var_complex, float)
-    idx = np.arange(n)
-    ratio = np.abs(z[idx, sent]) / np.maximum(np.abs(z[idx, 1 - sent]), 1e-300)
+    even = (np.arange(L) % 2 == 0)
     pulse = np.zeros((2, L), complex)
     used = np.zeros(2, int)
     loss = np.full(2, np.nan)
     coll = np.zeros(2)
     tot = np.zeros(2)
     for i in (0, 1):
-        cand = np.flatnonzero(sent == i)
-        if cand.size < 4:
+        k = np.flatnonzero(sent == i)
+        if k.size < 4:
             continue
-        thr = np.quantile(ratio[cand], 1.0 - keep)
-        k = cand[ratio[cand] >= thr]
-        ph = np.exp(-1j * np.angle(z[k, i]))
-        y = rows[k] * np.exp(-2j * np.pi * f[i] * sample_index[k] / sample_rate_hz) * ph[:, None]
+        y = rows[k] * np.exp(-2j * np.pi * f[i] * sample_index[k] / sample_rate_hz)
+        # phase of each symbol from the samples of the other parity, so that the noise of a sample
+        # never steers its own derotation (no bias towards the template)
+        ph_even = np.exp(-1j * np.angle(y[:, even].sum(axis=1)))
+        ph_odd = np.exp(-1j * np.angle(y[:, ~even].sum(axis=1)))
+        y = y * np.where(even[None, :], ph_odd[:, None], ph_even[:, None])
         m = y.mean(axis=0)
         pulse[i] = m
         used[i] = k.size
-        c = np.abs(m.sum()) ** 2 / L
-        e = float(np.sum(np.abs(m) ** 2)) - (L - 1) * max(float(nv[i]), 0.0) / k.size
-        e = max(e, c)
+        noise = L * max(float(nv[i]), 0.0) / k.size      # noise energy left in the mean (and in its sum)
+        c = max(np.abs(m.sum()) ** 2 - noise, 0.0) / L
+        e = max(float(np.sum(np.abs(m) ** 2)) - noise, c)
         coll[i], tot[i] = c, e
         loss[i] = max(0.0, -10 * np.log10(c / e)) if e > 0 and c > 0 else np.nan
-    mean = -10 * np.log10(coll.sum() / tot.sum()) if tot.sum() > 0 and coll.sum() > 0 else float("nan")
+    mean = max(0.0, -10 * np.log10(coll.sum() / tot.sum())) if tot.sum() > 0 and coll.sum() > 0 else float("nan")
     # noise per sample: each symbol minus its projection on its tone's measured pulse
     res = []
     for i in (0, 1):
@@ -666,6 +667,19 @@ def noise_correlation(z_idle: np.ndarray, rho: complex) -> NoiseCorrelation | No
     return NoiseCorrelation(r, n, float(1.96 * (1 - min(abs(r) ** 2, 1.0)) / np.sqrt(n)), rho, p)
 
 
+def window_referenced(out, sample_rate_hz: float) -> np.ndarray:
+    """Correlator outputs with each template referred to its window's first sample.
+
+    :func:`analyzer.branches.correlate` refers the templates to absolute
+    sample time, so ``z0 conj(z1)`` turns by ``2 pi (f1 - f0) n0 / fs`` from
+    window to window; referred to the window start, white noise gives
+    ``E[z0 conj(z1)] = s^2 <w1, w0>`` in every window.
+    """
+    n0 = out.grid.first_samples.astype(float)
+    f = np.asarray(out.tones_hz, float)
+    return out.z * np.exp(2j * np.pi * np.outer(n0, f) / sample_rate_hz)
+
+
 def noise_window_outputs(x: np.ndarray, x_start: int, grid, tones_hz, sample_rate_hz: float,
                          guard_symbols: float = 2.0) -> np.ndarray:
     """Both correlator outputs on the whole windows of ``x`` that lie outside the burst.
@@ -686,12 +700,12 @@ def noise_window_outputs(x: np.ndarray, x_start: int, grid, tones_hz, sample_rat
     n_before = max(before_end, 0) // L
     if n_before > 0:
         g = branches.SymbolGrid(float(x_start + before_end - n_before * L), float(L), int(n_before), L)
-        out.append(branches.correlate(x, x_start, g, tones_hz, sample_rate_hz).z)
+        out.append(window_referenced(branches.correlate(x, x_start, g, tones_hz, sample_rate_hz), sample_rate_hz))
     after_start = int(np.ceil(grid.stop + guard_symbols * sps)) - x_start
     n_after = max(len(x) - after_start, 0) // L
     if n_after > 0:
         g = branches.SymbolGrid(float(x_start + after_start), float(L), int(n_after), L)
-        out.append(branches.correlate(x, x_start, g, tones_hz, sample_rate_hz).z)
+        out.append(window_referenced(branches.correlate(x, x_start, g, tones_hz, sample_rate_hz), sample_rate_hz))
     return np.concatenate(out) if out else np.zeros((0, 2), complex)
 
 

@@ -358,7 +358,7 @@ def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, be
         checks.append(diagnostics.cross_branch_check(out.z, sent, n_tests=6))
     trend = diagnostics.ebn0_trend(out.z, sent, scale)
     rows, idx = branches.symbol_matrix(x, x_start, grid)
-    pulse = diagnostics.measured_pulse(rows, idx, out.z, sent, tones, fs, stats.noise_var_complex)
+    pulse = diagnostics.measured_pulse(rows, idx, sent, tones, fs, stats.noise_var_complex)
     checks.append(diagnostics.idle_power_check(mom, stats.noise_var_complex, pulse.noise_per_sample, abs(rho)))
     checks = [c for c in checks if c is not None]
     leak = diagnostics.leakage(mom, pulse.noise_per_sample)
