@@ -84,6 +84,11 @@ class BurstResult:
     loss_parts: diagnostics.LossParts | None = None
     blind_ber: tuple[float, tuple[float, float]] | None = None
     phase_continuity: float = float("nan")
+    decision_gain: diagnostics.DecisionGain | None = None
+    pulse: diagnostics.PulseShape | None = None
+    leakage: diagnostics.Leakage | None = None
+    noise_correlation: diagnostics.NoiseCorrelation | None = None
+    output_correlation: np.ndarray | None = None      # (2, 4, 4), see diagnostics.output_correlations
 
     @property
     def n_symbols(self) -> int:
@@ -424,20 +429,38 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
     p = float(np.mean(np.abs(_rows(x, x_start, grid)) ** 2)) / full_scale
-    checks = tuple(diagnostics.model_checks(out.z, sent, stats.signal_gain, stats.noise_var, abs(rho)))
-    trend = diagnostics.ebn0_trend(out.z, sent, scale)
-    parts = None
-    if loss is not None and ber is not None and ber.errors > 0:
-        parts = diagnostics.loss_parts(loss.value, ber.rate, model)
-    blind = diagnostics.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if np.isfinite(stats.ebn0_db) else None
+    diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale)
     return BurstResult(
         index=index, grid=grid, tones_hz=(float(tones[0]), float(tones[1])),
         symbol_rate_hz=float(fs / grid.samples_per_symbol), timing_quality=float(tm.line_snr),
         outputs=out, decisions=dec, sent=sent, stats=stats, moments=mom, rho=rho, ber=ber,
         ber_theory=ber_th, theory_model=model, loss=loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
-        nominal_tones_hz=opts.tones_hz, checks=checks, trend=trend, loss_parts=parts, blind_ber=blind,
-        phase_continuity=float(estimate.phase_continuity(out.z, sent)))
+        nominal_tones_hz=opts.tones_hz, phase_continuity=float(estimate.phase_continuity(out.z, sent)),
+        **diag)
+
+
+def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale) -> dict:
+    """Receiver-model diagnostics of one burst (the BurstResult fields they fill)."""
+    checks = diagnostics.model_checks(out.z, sent, stats.signal_gain, stats.noise_var, abs(rho), n_tests=6)
+    if abs(rho) < 0.05:
+        checks.append(diagnostics.cross_branch_check(out.z, sent, n_tests=6))
+    trend = diagnostics.ebn0_trend(out.z, sent, scale)
+    rows, idx = branches.symbol_matrix(x, x_start, grid)
+    pulse = diagnostics.measured_pulse(rows, idx, sent, tones, fs, stats.noise_var_complex)
+    checks.append(diagnostics.idle_power_check(mom, stats.noise_var_complex, pulse.noise_per_sample, abs(rho)))
+    checks = [c for c in checks if c is not None]
+    leak = diagnostics.leakage(mom, pulse.noise_per_sample)
+    ncor = diagnostics.noise_correlation(diagnostics.noise_window_outputs(x, x_start, grid, tones, fs), rho)
+    parts = None
+    if loss is not None and ber is not None and ber.errors > 0:
+        parts = diagnostics.loss_parts(loss.value, ber.rate, model, pulse.template_loss_db_mean)
+    ok = np.isfinite(stats.ebn0_db)
+    blind = diagnostics.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if ok else None
+    gain = diagnostics.decision_gain(stats.ebn0, stats.imbalance_db) if ok else None
+    return dict(checks=tuple(checks), trend=trend, loss_parts=parts, blind_ber=blind, decision_gain=gain,
+                pulse=pulse, leakage=leak, noise_correlation=ncor,
+                output_correlation=diagnostics.output_correlations(out.z, sent))
 
 
 EDGE_SYMBOLS = 4   # symbols examined on each side of each burst edge

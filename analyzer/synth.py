@@ -84,6 +84,11 @@ class SynthParams:
     ramp_symbols : float
         Length of a raised-cosine power ramp at each burst edge, in symbols
         (0 for hard keying).
+    symbol_ramp : float
+        Length of a raised-cosine (``sin^2``) amplitude ramp at both edges of
+        *every* symbol, in symbols, 0 ... 0.5 (0: rectangular symbols).  The
+        pulse is ``sin^2(pi u / 2)`` with ``u`` the distance to the nearer
+        symbol edge over the ramp length, clipped to 1.
     burst_gains_db : tuple of float
         Per-burst power change in dB (cycled); empty for equal bursts.
     real : bool
@@ -107,6 +112,7 @@ class SynthParams:
     pattern: str = "PN9"
     tone_amplitudes: tuple[float, float] = (1.0, 1.0)
     ramp_symbols: float = 0.0
+    symbol_ramp: float = 0.0
     burst_gains_db: tuple[float, ...] = field(default_factory=tuple)
     real: bool = False
     seed: int = 1
@@ -123,6 +129,8 @@ class SynthParams:
             raise ValueError("offsets, gaps and tails must not be negative")
         if min(self.tone_amplitudes) < 0 or max(self.tone_amplitudes) <= 0:
             raise ValueError("tone amplitudes must be non-negative and not both zero")
+        if not 0.0 <= self.symbol_ramp <= 0.5:
+            raise ValueError("symbol_ramp must be between 0 and 0.5 symbols")
         if self.pattern not in prbs.PATTERNS:
             raise ValueError(f"unknown pattern {self.pattern!r}")
 
@@ -214,6 +222,10 @@ def synthesize(p: SynthParams) -> SynthResult:
             phi = rng.uniform(0, 2 * np.pi, n_sym)
             phase = phi[k] + 2 * np.pi * freq[k] * nn / fs
         env = amps[bits][k] * 10.0 ** (gains[b % len(gains)] / 20.0)
+        if p.symbol_ramp > 0:
+            tk = t0 + k * sps_tx
+            d = np.minimum(nn - tk, tk + sps_tx - nn)
+            env = env * np.sin(0.5 * np.pi * np.clip(d / (p.symbol_ramp * sps_tx), 0.0, 1.0)) ** 2
         if p.ramp_symbols > 0:
             ramp = p.ramp_symbols * sps_tx
             u = np.clip(np.minimum(nn - t0, t0 + burst_len - nn) / ramp, 0.0, 1.0)

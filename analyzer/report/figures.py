@@ -219,3 +219,98 @@ def spectrogram(result):
     ax.set_ylabel("frequency (kHz)" + (" audio" if result.capture.kind == "audio" else " from centre"), fontsize=8)
     ax.tick_params(labelsize=8)
     return fig
+
+
+SCATTER_POINTS = 4000
+
+
+def iq_scatter(result, burst_index: int = 0):
+    """The four outputs as two I/Q planes (one per tone), points coloured by the decision.
+
+    At most ``SCATTER_POINTS`` symbols are drawn (evenly spaced through the burst).
+    A tone's plane shows a ring of radius ``g_i`` when it was sent and a cloud at
+    the origin when not.
+    """
+    b = result.bursts[burst_index]
+    z = b.outputs.z
+    dec = np.asarray(b.decisions).astype(int)
+    keep = np.unique(np.linspace(0, len(z) - 1, min(len(z), SCATTER_POINTS)).astype(int))
+    z, dec = z[keep], dec[keep]
+    fig, axes = plt.subplots(1, 2, figsize=(8.0, 3.9))
+    lim = 1.15 * float(np.percentile(np.abs(z), 99.5)) if len(z) else 1.0
+    for i, ax in enumerate(axes):
+        for d in (1 - i, i):
+            sel = dec == d
+            ax.scatter(z[sel, i].real, z[sel, i].imag, s=2.0, color=TONE_COLOURS[d], alpha=0.45,
+                       linewidths=0, label=f"decided tone {d}")
+        ax.set_xlim(-lim, lim)
+        ax.set_ylim(-lim, lim)
+        ax.set_aspect("equal")
+        ax.set_title(f"tone {i} outputs ({b.tones_hz[i]:.0f} Hz)", fontsize=9)
+        ax.set_xlabel(f"I{i}", fontsize=8)
+        ax.set_ylabel(f"Q{i}", fontsize=8)
+        _style(ax)
+        ax.legend(fontsize=6.5, frameon=False, markerscale=4, loc="upper right")
+    fig.tight_layout()
+    return fig
+
+
+def ebn0_trend(result, burst_index: int = 0):
+    """Eb/N0 per block along the burst, with the burst's fitted Eb/N0 and its interval."""
+    b = result.bursts[burst_index]
+    fig, ax = plt.subplots(figsize=(6.0, 2.8))
+    if b.trend is not None:
+        y = np.asarray(b.trend.block_ebn0_db, float)
+        ax.plot(np.arange(len(y)), y, marker="o", color=INK, linewidth=1.0, markersize=4, label="per block")
+    e = b.stats.ebn0_db
+    if np.isfinite(e):
+        ax.axhline(e, color=THEORY, linewidth=1.0, label=f"burst: {e:.2f} dB")
+        lo, hi = b.stats.ebn0_db_ci95
+        if np.isfinite(lo) and np.isfinite(hi):
+            ax.axhspan(lo, hi, color=THEORY, alpha=0.12, linewidth=0, label="95% interval")
+    if b.trend is not None:
+        ax.set_title(f"level test p = {b.trend.p_value:.3g}" + ("  (flagged)" if b.trend.flagged else ""),
+                     fontsize=9)
+    ax.set_xlabel("block (equal numbers of symbols)", fontsize=8)
+    ax.set_ylabel("Eb/N0 (dB)", fontsize=8)
+    _style(ax)
+    ax.legend(fontsize=7, frameon=False)
+    fig.tight_layout()
+    return fig
+
+
+def loss_bars(result, burst_index: int = 0):
+    """The implementation loss split into parts, as horizontal bars (dB).
+
+    The template-mismatch bar stands apart: it is not part of the total (the
+    measured Eb/N0 already leaves out what the template fails to collect).
+    """
+    b = result.bursts[burst_index]
+    lp = b.loss_parts
+    names, vals, cols = [], [], []
+    if lp is not None:
+        for n, v, c in (("tone correlation", lp.correlation_db, TONE_COLOURS[0]),
+                        ("tone imbalance", lp.imbalance_db, TONE_COLOURS[1]),
+                        ("rest", lp.rest_db, GRID),
+                        ("total", lp.total_db, INK),
+                        ("template mismatch\n(not in total)", lp.template_db, THEORY)):
+            names.append(n)
+            vals.append(v if np.isfinite(v) else 0.0)
+            cols.append(c)
+    fig, ax = plt.subplots(figsize=(6.0, 2.6))
+    if names:
+        yy = np.arange(len(names))[::-1]
+        ax.barh(yy, vals, color=cols, edgecolor=INK, linewidth=0.5)
+        ax.set_yticks(yy)
+        ax.set_yticklabels(names, fontsize=8)
+        ax.axvline(0, color=INK, linewidth=0.8)
+        for y, v in zip(yy, vals):
+            ax.text(v, y, f" {v:+.2f}", va="center", ha="left" if v >= 0 else "right", fontsize=7)
+    else:
+        ax.text(0.5, 0.5, "no split: no bit errors counted", ha="center", va="center", fontsize=9,
+                transform=ax.transAxes)
+        ax.set_yticks([])
+    ax.set_xlabel("dB (positive = costs Eb/N0)", fontsize=8)
+    _style(ax)
+    fig.tight_layout()
+    return fig

@@ -49,6 +49,10 @@ def render_html(result, report: dict) -> str:
         "envelopes": [figures.to_png_base64(figures.envelope_histograms(result, i))
                       for i in range(min(len(result.bursts), 4))],
         "ber": figures.to_png_base64(figures.ber_curve(result)),
+        "diag": [{"scatter": figures.to_png_base64(figures.iq_scatter(result, i)),
+                  "trend": figures.to_png_base64(figures.ebn0_trend(result, i)),
+                  "loss": figures.to_png_base64(figures.loss_bars(result, i))}
+                 for i in range(min(len(result.bursts), 4))],
     }
     tmpl = _env().get_template("report.html.j2")
     return tmpl.render(r=report, figs=figs,

@@ -48,6 +48,24 @@ def nominal_template_loss_db(tones_hz, nominal_hz, sample_rate_hz: float, window
     return float(-10 * np.log10(m)) if m > 0 else float("inf")
 
 
+def _noise_corr(nc):
+    if nc is None:
+        return None
+    return {"abs": _num(abs(nc.value)), "phase_deg": _num(np.degrees(np.angle(nc.value))),
+            "ci95_abs": _num(nc.ci95_abs), "n_windows": int(nc.n_windows),
+            "template_abs": _num(abs(nc.template_correlation)),
+            "template_phase_deg": _num(np.degrees(np.angle(nc.template_correlation))),
+            "p_value": _num(nc.p_value)}
+
+
+def _out_corr(c):
+    if c is None:
+        return None
+    return {"outputs": ["I0", "Q0", "I1", "Q1"],
+            "tone_0_sent": [[_num(v) for v in row] for row in c[0]],
+            "tone_1_sent": [[_num(v) for v in row] for row in c[1]]}
+
+
 def _ber(b):
     if b is None:
         return None
@@ -105,7 +123,21 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "blind_ber_ci95": [None, None] if b.blind_ber is None else _pair(b.blind_ber[1]),
         "loss_parts_db": None if b.loss_parts is None else {
             "correlation": _num(b.loss_parts.correlation_db), "imbalance": _num(b.loss_parts.imbalance_db),
-            "rest": _num(b.loss_parts.rest_db)},
+            "rest": _num(b.loss_parts.rest_db), "template_mismatch": _num(b.loss_parts.template_db)},
+        "decision_gain": None if getattr(b, "decision_gain", None) is None else {
+            "ber_square_law": _num(b.decision_gain.ber_square_law),
+            "ber_likelihood": _num(b.decision_gain.ber_likelihood),
+            "likelihood_gain_db": _num(b.decision_gain.gain_db)},
+        "pulse": None if getattr(b, "pulse", None) is None else {
+            "template_loss_db": [_num(v) for v in b.pulse.template_loss_db],
+            "template_loss_db_mean": _num(b.pulse.template_loss_db_mean),
+            "n_symbols": [int(v) for v in b.pulse.n_used],
+            "noise_per_sample": _num(b.pulse.noise_per_sample)},
+        "leakage": None if getattr(b, "leakage", None) is None else {
+            "ratio": [_num(v) for v in b.leakage.ratio], "ratio_mean": _num(b.leakage.ratio_mean),
+            "tone_correlation": _num(abs(b.rho))},
+        "noise_correlation": _noise_corr(getattr(b, "noise_correlation", None)),
+        "output_correlation": _out_corr(getattr(b, "output_correlation", None)),
     }
     if b.nominal_tones_hz is not None:
         d["nominal_template_loss_db"] = _num(nominal_template_loss_db(

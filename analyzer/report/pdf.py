@@ -122,6 +122,62 @@ def summary_page(report: dict, generated: str):
     return fig
 
 
+def _wrap(text: str, width: int = 70) -> str:
+    import textwrap
+    return "\n".join(textwrap.wrap(text, width))
+
+
+def diagnostics_page(bd: dict):
+    """Receiver diagnostics of one burst (from its JSON entry): model checks, leakage, pulse, loss split."""
+    fig = plt.figure(figsize=A4)
+    dg = bd["diagnostics"]
+    fig.text(0.08, 0.95, f"Receiver diagnostics, burst {bd['index']}", fontsize=16, weight="bold", color=INK)
+    fig.text(0.08, 0.925, "Model checks are flagged below p = 0.01 (Bonferroni-corrected over the family).",
+             fontsize=8, color="#5a6672")
+    rows = [[c["name"], fmt_num(c["statistic"], 3), fmt_sci(c["p_value"]) if c["p_value"] is not None and
+             c["p_value"] < 0.01 else fmt_num(c["p_value"], 3), "FLAGGED" if c["flagged"] else "ok",
+             _wrap(c["meaning"], 58)] for c in dg["model_checks"]]
+    tr = dg.get("ebn0_trend")
+    if tr:
+        rows.append(["constant Eb/N0 along the burst", fmt_num(tr["slope_db_per_block"], 3) + " dB/blk",
+                     fmt_num(tr["p_value"], 3), "FLAGGED" if tr["flagged"] else "ok", _wrap(tr["meaning"], 58)])
+    ax = fig.add_axes([0.05, 0.52, 0.9, 0.39])
+    _table(ax, rows, ["check", "statistic", "p-value", "result", "a failure usually means"],
+           [0.22, 0.1, 0.09, 0.09, 0.5], fontsize=6.5)
+    if ax.tables:
+        for (r, _c), cell in ax.tables[0].get_celld().items():
+            if r > 0:
+                cell.set_height(cell.get_height() * 2.2)
+    lk, nc, pu, gd = dg.get("leakage"), dg.get("noise_correlation"), dg.get("pulse"), dg.get("decision_gain")
+    rho = fmt_num(bd["tone_correlation"], 3)
+    q = [["leakage on the idle branch", fmt_num(lk["ratio_mean"], 3) if lk else "–", f"|rho| = {rho}"],
+         ["noise correlation of the branches",
+          f"{fmt_num(nc['abs'], 3)} ± {fmt_num(nc['ci95_abs'], 3)} ({nc['n_windows']} windows)" if nc else "–",
+          f"|rho| = {rho}"],
+         ["template mismatch (measured pulse)", fmt_num(pu["template_loss_db_mean"], 3, "dB") if pu else "–",
+          "0 dB (rectangular)"],
+         ["nominal-template loss", fmt_num(bd["nominal_template_loss_db"], 3, "dB"), "0 dB"],
+         ["likelihood-ratio gain over square-law", fmt_num(gd["likelihood_gain_db"], 2, "dB") if gd else "–",
+          f"at {fmt_num(bd['tone_imbalance_db'], 2)} dB imbalance"],
+         ["BER from the fitted statistics", fmt_sci(dg["blind_ber"]),
+          f"counted {fmt_sci(bd['ber']['rate'])}" if bd["ber"] else "not counted"]]
+    fig.text(0.08, 0.47, "Measured against the model", fontsize=12, weight="bold", color=INK)
+    ax = fig.add_axes([0.08, 0.3, 0.84, 0.16])
+    _table(ax, q, ["quantity", "measured", "model / reference"], [0.4, 0.33, 0.27], fontsize=7.5)
+    fig.text(0.08, 0.26, "Implementation loss by cause (dB)", fontsize=12, weight="bold", color=INK)
+    lp = dg.get("loss_parts_db")
+    if lp:
+        lr = [["tone correlation", fmt_num(lp["correlation"], 2)], ["tone imbalance", fmt_num(lp["imbalance"], 2)],
+              ["rest (timing, frequency, interference, estimation)", fmt_num(lp["rest"], 2)],
+              ["total", fmt_num(bd["implementation_loss_db"], 2)],
+              ["template mismatch (not in the total)", fmt_num(lp["template_mismatch"], 2)]]
+    else:
+        lr = [["no split: no bit errors were counted", ""]]
+    ax = fig.add_axes([0.08, 0.08, 0.84, 0.17])
+    _table(ax, lr, ["cause", "dB"], [0.7, 0.3], fontsize=7.5)
+    return fig
+
+
 def _pdf_bytes(pages, title: str) -> bytes:
     buf = io.BytesIO()
     with matplotlib.rc_context({"pdf.fonttype": 42}):
@@ -133,11 +189,15 @@ def _pdf_bytes(pages, title: str) -> bytes:
 
 
 def render_pdf(result, report: dict) -> bytes:
-    """The analysis report as PDF bytes: summary page, spectrum, envelope histograms, BER curve."""
+    """The analysis report as PDF bytes: summary page, spectrum, envelope histograms, BER curve,
+    then per burst (up to four) the diagnostics page, I/Q planes, Eb/N0 trend and loss split."""
     generated = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     pages = [summary_page(report, generated), figures.spectrogram(result), figures.spectrum(result)]
     pages += [figures.envelope_histograms(result, i) for i in range(min(len(result.bursts), 4))]
     pages.append(figures.ber_curve(result))
+    for i in range(min(len(result.bursts), 4)):
+        pages += [diagnostics_page(report["bursts"][i]), figures.iq_scatter(result, i),
+                  figures.ebn0_trend(result, i), figures.loss_bars(result, i)]
     return _pdf_bytes(pages, f"tonepair report: {report['capture']['path']}")
 
 
