@@ -189,9 +189,8 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     ps = np.convolve(p, np.ones(k_floor) / k_floor, mode="same")
     rel = 1.0 / np.sqrt(b * k_floor)
     floor = np.percentile(ps, 20) / max(1.0 - 0.84 * rel, 0.5)
-    nd = np.asarray(trace.noise_density, dtype=float)
-    if nd.size and np.isfinite(nd).any():
-        floor = min(floor, float(np.nanmedian(nd)))
+    track = floor_track(trace, floor)
+    floor = float(np.median(track))
     # Several moving-average lengths: short ones see short strong bursts, long
     # ones see long weak bursts; a run found at length k must last >= k frames.
     min_frames = max(1, int(min_len_samples / trace.frame / 2))
@@ -200,7 +199,7 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     while True:
         kk = min(k, p.size)
         ps = np.convolve(p, np.ones(kk) / kk, mode="same")
-        a_k = ps > floor * (1.0 + n_sigma / np.sqrt(b * kk))
+        a_k = ps > track * (1.0 + n_sigma / np.sqrt(b * kk))
         edges = np.flatnonzero(np.diff(np.concatenate(([0], a_k.astype(np.int8), [0])))).reshape(-1, 2)
         for a, e in edges:
             if e - a >= max(kk, min_frames):
@@ -214,8 +213,35 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     edges = np.flatnonzero(np.diff(np.concatenate(([0], above.astype(np.int8), [0]))))
     for a, e in edges.reshape(-1, 2):
         start, stop = a * trace.frame, e * trace.frame
-        spans.append(BurstSpan(int(start), int(stop), float(np.mean(p[a:e])), float(floor)))
+        spans.append(BurstSpan(int(start), int(stop), float(np.mean(p[a:e])), float(np.mean(track[a:e]))))
     return spans, float(floor)
+
+
+def floor_track(trace: PowerTrace, global_floor: float) -> np.ndarray:
+    """The in-band noise floor frame by frame, following a drifting noise level.
+
+    Where out-of-band noise is seen (``trace.noise_density``, white noise
+    assumed) its running median over 129 frames tracks the floor, even inside
+    long bursts, whose power stays in band.  It is scaled by the in-band to
+    out-of-band noise ratio measured on the quietest fifth of the frames
+    (limited to 0.5...2, i.e. +-3 dB of colour, so that a capture the bursts
+    fill almost entirely cannot inflate it further).  Without out-of-band
+    bins the floor is the constant ``global_floor``.
+    """
+    p = np.asarray(trace.power, float)
+    nd = np.asarray(trace.noise_density, float)
+    if nd.size != p.size or not np.isfinite(nd).any():
+        return np.full(p.size, float(global_floor))
+    from scipy.ndimage import median_filter
+
+    ndf = np.where(np.isfinite(nd) & (nd > 0), nd, np.nanmedian(nd))
+    w = int(min(129, ndf.size) | 1)
+    smooth = median_filter(ndf, size=w, mode="nearest")
+    ratio = p / np.maximum(smooth, 1e-300)
+    quiet = ratio <= np.percentile(ratio, 20)
+    rel = 1.0 / np.sqrt(max(trace.bins, 1))
+    c = float(np.median(ratio[quiet])) / max(1.0 - 0.84 * rel, 0.5) if quiet.any() else 1.0
+    return smooth * float(np.clip(c, 0.5, 2.0))
 
 
 def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int = 8
@@ -273,8 +299,9 @@ def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int =
         # the edge threshold sits a quarter of the way up: the energy of a
         # burst symbol spreads more than that of a noise symbol
         f, st = trim_to_burst(e[lo:hi], n, n + 0.5 * g2)
-        if st - f >= min_symbols:
-            out.append((lo + f, lo + st))
+        for a2, b2 in _split_at_gaps(e[lo + f:lo + st], n, g2):
+            if b2 - a2 >= min_symbols:
+                out.append((lo + f + a2, lo + f + b2))
     merged: list[tuple[int, int]] = []
     for f, st in sorted(out):
         if merged and f < merged[-1][1]:
@@ -282,6 +309,42 @@ def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int =
         else:
             merged.append((f, st))
     return merged
+
+
+def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, false_rate: float = 0.01
+                   ) -> list[tuple[int, int]]:
+    """Split a burst where a run of symbols all fall below the midpoint energy.
+
+    A burst symbol's energy ``|g + n0|^2 + |n1|^2`` (complex noise of variance
+    ``noise_level / 2`` per branch) is, scaled by ``4 / noise_level``, a
+    noncentral chi-square with 4 degrees of freedom and noncentrality
+    ``4 g^2 / noise_level``; with ``p`` its probability of falling below the
+    midpoint, a run of ``r`` such symbols inside a burst of ``N`` happens by
+    chance about ``N p^r`` times.  Runs at least as long as the ``r`` that
+    makes this ``false_rate`` are taken as gaps between bursts (shorter gaps
+    cannot be told from noise at this signal level).
+    """
+    from scipy import stats as _st
+
+    n_sym = e.size
+    if n_sym < 3 or g2 <= 0 or noise_level <= 0:
+        return [(0, n_sym)]
+    theta = noise_level + 0.5 * g2
+    p = float(_st.ncx2.cdf(4 * theta / noise_level, 4, 4 * g2 / noise_level))
+    if not 0 < p < 1:
+        return [(0, n_sym)]
+    r = int(max(2, np.ceil(np.log(false_rate / n_sym) / np.log(p))))
+    low = e < theta
+    edges = np.flatnonzero(np.diff(np.concatenate(([0], low.astype(np.int8), [0])))).reshape(-1, 2)
+    gaps = [(a, b) for a, b in edges if b - a >= r and a > 0 and b < n_sym]
+    if not gaps:
+        return [(0, n_sym)]
+    parts, start = [], 0
+    for a, b in gaps:
+        parts.append((start, int(a)))
+        start = int(b)
+    parts.append((start, n_sym))
+    return parts
 
 
 # --------------------------------------------------------------------------- tones
@@ -462,6 +525,16 @@ class TimingEstimate:
     line_snr: float
 
 
+def _line_quality(v: np.ndarray, rate_hz: float, sample_rate_hz: float, peak: float) -> float:
+    """Power of a spectral line over the median spectrum 8 to 64 resolution cells to either side."""
+    res = sample_rate_hz / max(len(v), 1)
+    lo, hi = rate_hz - 64 * res, rate_hz + 64 * res
+    spec = np.abs(signal.zoom_fft(v, [lo, hi], m=257, fs=sample_rate_hz, endpoint=True)) ** 2
+    off = np.abs(np.linspace(-64, 64, 257))
+    ref = np.median(spec[off >= 8])
+    return float(peak / max(ref, 1e-300))
+
+
 def estimate_symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz,
                            rate_hint_hz: float, search_ppm: float = 3000.0) -> TimingEstimate:
     """Symbol rate near ``rate_hint_hz`` and timing from the spectral line of ``e[n]``.
@@ -511,10 +584,7 @@ def estimate_symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, t
     # one sample: the aligned window starts at ceil(t_k); report the middle of
     # that interval, ceil(t_k) - 1/2 (error uniform within +-1/2 sample).
     phase = x_start + centre - 0.5 * (sps - window) - 0.5
-    # quality: line power over the median of the zoomed band away from the line
-    far = np.abs(np.arange(m) - i) > max(4, m // 16)
-    ref = np.median(pw[far]) if far.any() else np.median(pw)
-    return TimingEstimate(float(rate), float(phase), float(pw[i] / max(ref, 1e-300)))
+    return TimingEstimate(float(rate), float(phase), _line_quality(e, rate, sample_rate_hz, pw[i]))
 
 
 def trim_to_burst(energies: np.ndarray, noise_level: float, signal_level: float | None = None
@@ -916,9 +986,7 @@ def transition_line_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, t
     centre = (-np.angle(c) / (2 * np.pi)) * sps            # where the slicer fires, mod sps
     # window [n, n+m) balanced at n = ceil(t) - m/2; the slicer fires ~0.3 m later
     phase = x_start + centre + m / 2 - 0.3 * m - 0.5
-    far = np.abs(np.arange(npts) - i) > max(4, npts // 16)
-    ref = np.median(pw[far]) if far.any() else np.median(pw)
-    return TimingEstimate(float(rate), float(phase), float(pw[i] / max(ref, 1e-300)))
+    return TimingEstimate(float(rate), float(phase), _line_quality(imp, rate, sample_rate_hz, pw[i]))
 
 
 def symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz, rate_hint_hz: float,
@@ -1031,3 +1099,4 @@ def _transition_timing_once(x: np.ndarray, x_start: int, grid: SymbolGrid, tones
     else:
         slope, icpt = 0.0, float(med[0])
     return symbol_grid(grid.first_start + icpt, sps + slope, n_sym)
+

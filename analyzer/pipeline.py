@@ -587,16 +587,38 @@ def _thin_spectrogram(sg: np.ndarray, max_frames: int = 1200) -> np.ndarray:
 
 
 def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path, start: int):
-    """Tones and symbol rate to start a region's acquisition from: hints, or blind estimates."""
+    """Tones, symbol rate and its line quality to start a region from: hints, or blind estimates."""
     tones = opts.tones_hz if opts.tones_hz is not None else acquire.blind_tones(x, fs, band)
     rs = opts.symbol_rate_hz
+    quality = float("inf")
     if rs is None:
         rs = acquire.blind_symbol_rate(x, fs, tones, band)
         if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
             warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
                  "give --baud to analyse it")
             return None
-    return (float(tones[0]), float(tones[1])), float(rs)
+        quality = acquire.symbol_timing(x, 0, fs, tones, rs, search_ppm=1000.0).line_snr
+    return (float(tones[0]), float(tones[1])), float(rs), float(quality)
+
+
+def _common_rate(starts: list) -> list:
+    """Bursts of one capture share a transmitter: a blind rate that is a whole multiple
+    (2..6, within 0.5%) of the rate found with the strongest timing line is that
+    rate's harmonic, and is replaced by it."""
+    found = [s for s in starts if s is not None]
+    if len(found) < 2:
+        return starts
+    ref = max(found, key=lambda s: s[2])[1]
+    out = []
+    for s in starts:
+        if s is None:
+            out.append(None)
+            continue
+        k = round(s[1] / ref)
+        if 2 <= k <= 6 and abs(s[1] / ref - k) < 0.005 * k:
+            s = (s[0], ref, s[2])
+        out.append(s)
+    return out
 
 
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
@@ -668,13 +690,21 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
         margin = 8 * frame + 4 * int(np.ceil(sps_min if rs is None else fs / rs))
         regions = _merge_spans(spans, gap=int(4 * sps_min), margin=margin, n_samples=cap.n_samples)
         bursts: list[BurstResult] = []
+        starts = []
         for a, b in regions:
             x = read(a, b - a).astype(np.complex128)
-            start = _starting_point(x, fs, band, opts, cap.path, a)
+            starts.append(_starting_point(x, fs, band, opts, cap.path, a))
+        starts = _common_rate(starts)
+        # the noise floor where each region lies (it may drift along the capture)
+        track = acquire.floor_track(trace, floor) * frame / max(bins, 1)
+        for (a, b), start in zip(regions, starts):
             if start is None:
                 continue
-            tones0, rs0 = start
-            for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, tones0, rs0, noise_var):
+            x = read(a, b - a).astype(np.complex128)
+            tones0, rs0 = start[:2]
+            fa, fb = a // frame, max(a // frame + 1, min(b // frame, len(track)))
+            local_nv = float(np.median(track[fa:fb])) if fb > fa and len(track) else noise_var
+            for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, tones0, rs0, local_nv):
                 bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
                                              bits_text, full_scale, tones0, rs0))
         sps = sps_min

@@ -93,6 +93,9 @@ class SynthParams:
         Per-burst power change in dB (cycled); empty for equal bursts.
     real : bool
         Real audio instead of complex baseband.
+    noise_drift_db : float
+        Noise power changes linearly in dB from ``-drift/2`` at the first
+        sample to ``+drift/2`` at the last (``ebn0_db`` holds at the middle).
     seed : int
         Seed of the random generator (noise and random phases).
     """
@@ -115,6 +118,7 @@ class SynthParams:
     symbol_ramp: float = 0.0
     burst_gains_db: tuple[float, ...] = field(default_factory=tuple)
     real: bool = False
+    noise_drift_db: float = 0.0
     seed: int = 1
 
     def __post_init__(self) -> None:
@@ -242,10 +246,14 @@ def synthesize(p: SynthParams) -> SynthResult:
 
     sigma = _noise_sigma(p, amplitude)
     if sigma > 0:
+        scale = sigma
+        if p.noise_drift_db:
+            db = p.noise_drift_db * (np.arange(total) / max(total - 1, 1) - 0.5)
+            scale = sigma * 10.0 ** (db / 20.0)
         if p.real:
-            samples += sigma * rng.standard_normal(total)
+            samples += scale * rng.standard_normal(total)
         else:
-            samples += sigma / np.sqrt(2) * (rng.standard_normal(total) + 1j * rng.standard_normal(total))
+            samples += scale / np.sqrt(2) * (rng.standard_normal(total) + 1j * rng.standard_normal(total))
 
     params = asdict(p)
     params["tones_hz"] = list(p.tones_hz)
