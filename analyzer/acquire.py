@@ -220,13 +220,11 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
 def floor_track(trace: PowerTrace, global_floor: float) -> np.ndarray:
     """The in-band noise floor frame by frame, following a drifting noise level.
 
-    Where out-of-band noise is seen (``trace.noise_density``, white noise
-    assumed) its running median over 129 frames tracks the floor, even inside
-    long bursts, whose power stays in band.  It is scaled by the in-band to
-    out-of-band noise ratio measured on the quietest fifth of the frames
-    (limited to 0.5...2, i.e. +-3 dB of colour, so that a capture the bursts
-    fill almost entirely cannot inflate it further).  Without out-of-band
-    bins the floor is the constant ``global_floor``.
+    Where out-of-band noise is seen (``trace.noise_density``) its running
+    median over 129 frames tracks the floor, even inside long bursts, whose
+    power stays in band; this assumes the noise is white across the band (true
+    of SDR and analyser I/Q away from the anti-alias roll-off).  Without
+    out-of-band bins the floor is the constant ``global_floor``.
     """
     p = np.asarray(trace.power, float)
     nd = np.asarray(trace.noise_density, float)
@@ -236,12 +234,7 @@ def floor_track(trace: PowerTrace, global_floor: float) -> np.ndarray:
 
     ndf = np.where(np.isfinite(nd) & (nd > 0), nd, np.nanmedian(nd))
     w = int(min(129, ndf.size) | 1)
-    smooth = median_filter(ndf, size=w, mode="nearest")
-    ratio = p / np.maximum(smooth, 1e-300)
-    quiet = ratio <= np.percentile(ratio, 20)
-    rel = 1.0 / np.sqrt(max(trace.bins, 1))
-    c = float(np.median(ratio[quiet])) / max(1.0 - 0.84 * rel, 0.5) if quiet.any() else 1.0
-    return smooth * float(np.clip(c, 0.5, 2.0))
+    return median_filter(ndf, size=w, mode="nearest")
 
 
 def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int = 8
@@ -336,7 +329,10 @@ def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, false_rate: flo
     r = int(max(2, np.ceil(np.log(false_rate / n_sym) / np.log(p))))
     low = e < theta
     edges = np.flatnonzero(np.diff(np.concatenate(([0], low.astype(np.int8), [0])))).reshape(-1, 2)
-    gaps = [(a, b) for a, b in edges if b - a >= r and a > 0 and b < n_sym]
+    # a gap must also look like noise on average (a grid that drifts half a
+    # symbol off inside a burst lowers the energy to about the midpoint, not to n)
+    gaps = [(a, b) for a, b in edges if b - a >= r and a > 0 and b < n_sym
+            and np.mean(e[a:b]) < noise_level + 0.2 * g2]
     if not gaps:
         return [(0, n_sym)]
     parts, start = [], 0

@@ -688,7 +688,11 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                  f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale, {rel:.1f} dB against the "
                  f"rest of the signal); removed before analysis")
         margin = 8 * frame + 4 * int(np.ceil(sps_min if rs is None else fs / rs))
-        regions = _merge_spans(spans, gap=int(4 * sps_min), margin=margin, n_samples=cap.n_samples)
+        # close spans are joined: a weak burst can dip under the threshold for a
+        # while, and the symbol-level segmentation splits real gaps precisely
+        # (gaps up to twice the longest moving average of the burst search)
+        k_long = int(np.ceil(1.0 / (0.08 ** 2 * max(bins, 1))))
+        regions = _merge_spans(spans, gap=int(2 * k_long * frame), margin=margin, n_samples=cap.n_samples)
         bursts: list[BurstResult] = []
         starts = []
         for a, b in regions:
