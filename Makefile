@@ -5,7 +5,7 @@ BIN    := $(VENV)/bin
 DEMO_CAPTURE := sample_captures/beacon_demo.sigmf-meta
 DEMO_SPEC    := sample_captures/beacon_demo.spec.toml
 
-.PHONY: venv venv-test demo test fuzz clean
+.PHONY: venv venv-test demo test fuzz bench clean
 
 $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
@@ -26,6 +26,9 @@ test: venv-test
 
 fuzz: venv-test
 	TONEPAIR_FUZZ_EXAMPLES=10000 $(BIN)/python -m pytest -q -m fuzz tests/test_fuzz_loaders.py
+
+bench: venv
+	$(BIN)/python benchmarks/throughput.py
 
 clean:
 	rm -rf $(VENV) build *.egg-info

@@ -42,7 +42,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import signal
 
-from .branches import SymbolGrid, correlate, symbol_grid
+from .branches import SymbolGrid, correlate, symbol_grid, window_energy
 
 __all__ = [
     "PowerTrace", "BurstSpan", "band_power_frames", "find_bursts", "coarse_tones",
@@ -676,12 +676,15 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     deltas = np.arange(-span, span + step / 2, step)
     edges = np.linspace(0, n, blocks + 1).astype(int)
     energy = np.zeros((len(deltas), blocks))
-    for j, d in enumerate(deltas):
-        g = symbol_grid(grid.first_start + d, grid.samples_per_symbol, n)
-        if g.first_samples[0] < x_start or g.first_samples[-1] + g.window > x_start + len(x):
-            return grid
-        e = np.sum(np.abs(correlate(x, x_start, g, tones_hz, sample_rate_hz).z) ** 2, axis=1)
-        energy[j] = np.add.reduceat(e, edges[:-1])
+    firsts = [symbol_grid(grid.first_start + d, grid.samples_per_symbol, n).first_samples for d in deltas]
+    if min(f[0] for f in firsts) < x_start or max(f[-1] for f in firsts) + grid.window > x_start + len(x):
+        return grid
+    # the energy of a window at every start sample, once; each shifted grid picks its symbols
+    lo = int(min(f[0] for f in firsts))
+    e_all = window_energy(x, x_start, lo, int(max(f[-1] for f in firsts)) + 1, grid.window, tones_hz,
+                          sample_rate_hz)
+    for j, f in enumerate(firsts):
+        energy[j] = np.add.reduceat(e_all[f - lo], edges[:-1])
     best = np.empty(blocks)
     for b in range(blocks):
         col = energy[:, b]

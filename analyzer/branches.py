@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["SymbolGrid", "BranchOutputs", "symbol_grid", "correlate", "template_correlation"]
+__all__ = ["SymbolGrid", "BranchOutputs", "symbol_grid", "correlate", "window_energy", "template_correlation"]
 
 
 @dataclass(frozen=True)
@@ -167,6 +167,50 @@ def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_ra
         rot = np.exp(-2j * np.pi * np.outer(n0, f) / sample_rate_hz)
         z[lo:hi] = acc * rot
     return BranchOutputs(z=z, tones_hz=(float(f[0]), float(f[1])), grid=grid)
+
+
+def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: int, tones_hz,
+                  sample_rate_hz: float, chunk: int = 1 << 13) -> np.ndarray:
+    """Total correlator energy ``|z0|^2 + |z1|^2`` of a window starting at every sample.
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Complex samples; ``x[0]`` is capture sample ``x_start``.
+    x_start : int
+        Capture index of ``x[0]``.
+    first, stop : int
+        Capture indices of the first and one past the last window start.
+    window : int
+        Samples per window (the grid's ``window``).
+    tones_hz : sequence of two floats
+        Template frequencies (Hz).
+    sample_rate_hz : float
+        Sample rate.
+    chunk : int
+        Window starts per vectorised step.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``e[n - first]`` for ``first <= n < stop``: the energy
+        :func:`correlate` gives a symbol whose first sample is ``n`` (the
+        phase rotation it applies has unit magnitude), computed once for
+        every start so that many shifted grids can share it.
+    """
+    f = np.asarray(tones_hz, dtype=float)
+    m = np.arange(window)
+    base = np.exp(-2j * np.pi * np.outer(m, f) / sample_rate_hz) / np.sqrt(window)
+    lo, hi = first - x_start, stop - x_start
+    if lo < 0 or hi + window - 1 > len(x):
+        raise ValueError("windows run outside the samples given")
+    view = np.lib.stride_tricks.sliding_window_view(x[lo:hi + window - 1], window)
+    e = np.empty(hi - lo)
+    for a in range(0, hi - lo, chunk):
+        b = min(a + chunk, hi - lo)
+        acc = np.ascontiguousarray(view[a:b]) @ base
+        e[a:b] = acc.real[:, 0] ** 2 + acc.imag[:, 0] ** 2 + acc.real[:, 1] ** 2 + acc.imag[:, 1] ** 2
+    return e
 
 
 def template_correlation(tones_hz, sample_rate_hz: float, window: int) -> complex:

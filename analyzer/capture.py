@@ -4,7 +4,7 @@ Supported inputs
 ----------------
 *SigMF* (``.sigmf-meta`` / ``.sigmf-data`` pair, or their common base name):
 the metadata is parsed and checked with the ``sigmf`` package; samples are
-read through :class:`numpy.memmap`, so a file is never loaded whole.  Complex
+read block by block at file offsets, so a file is never loaded whole.  Complex
 datatypes (``cf32``, ``cf64``, ``ci32``, ``ci16``, ``ci8``, ``cu8`` ... in
 either byte order) give ``kind == "iq"``; real datatypes (``rf32_le``,
 ``ri16_le`` ...) are handled like mono audio (``kind == "audio"``, delivered as
@@ -77,7 +77,13 @@ _SIGMF_TYPE = re.compile(r"^(?P<cr>[cr])(?P<num>[fiu])(?P<bits>8|16|32|64)(?:_(?
 
 # --------------------------------------------------------------------------- sources
 class _MemmapSource:
-    """Samples of a binary file read through numpy.memmap.
+    """Samples of a binary file, read block by block with explicit file reads.
+
+    Each :meth:`raw` call reads only the bytes of the samples asked for
+    (``numpy.fromfile`` at an offset) and keeps nothing mapped, so the
+    process's resident memory does not grow with the part of the file read
+    so far (a long-lived ``numpy.memmap`` would keep every page touched
+    resident until it is closed).
 
     Parameters
     ----------
@@ -105,22 +111,28 @@ class _MemmapSource:
         self.n_channels = n_channels
         self.scale = scale
         self.bias = bias
-        self._maps: dict[int, np.memmap] = {}
+        # little-endian float32 I/Q of one channel: read straight into complex64
+        self._direct = (self.component == np.dtype("<f4") and n_comp == 2 and n_channels == 1
+                        and scale == 1.0 and not bias)
 
-    def __getstate__(self):
-        state = self.__dict__.copy()
-        state["_maps"] = {}
-        return state
+    def _read(self, i: int, lo: int, hi: int, dtype) -> np.ndarray:
+        """Stored values of samples ``lo <= n < hi`` of piece ``i``."""
+        first, stop, base = self.pieces[i]
+        frame = self.component.itemsize * self.n_comp * self.n_channels
+        per = 1 if dtype is not self.component else self.n_comp * self.n_channels
+        x = np.fromfile(self.path, dtype=dtype, count=(hi - lo) * per, offset=base + lo * frame)
+        if len(x) != (hi - lo) * per:
+            raise InputError(f"file ends early: samples {lo} to {hi} were expected", self.path,
+                             "the file changed or was cut short while it was read")
+        return x
 
-    def _map(self, i: int) -> np.memmap:
-        m = self._maps.get(i)
-        if m is None:
-            first, stop, base = self.pieces[i]
-            frame = self.component.itemsize * self.n_comp * self.n_channels
-            m = np.memmap(self.path, dtype=self.component, mode="r", offset=base + first * frame,
-                          shape=(stop - first, self.n_channels, self.n_comp))
-            self._maps[i] = m
-        return m
+    def read_complex64(self, a: int, b: int) -> np.ndarray | None:
+        """Samples ``a <= n < b`` as complex64 when no conversion is needed, else None."""
+        if not self._direct:
+            return None
+        parts = [self._read(i, max(a, first), min(b, stop), np.dtype("<c8"))
+                 for i, (first, stop, _) in enumerate(self.pieces) if max(a, first) < min(b, stop)]
+        return np.concatenate(parts) if len(parts) != 1 else parts[0]
 
     def raw(self, a: int, b: int) -> np.ndarray:
         """Samples ``a <= n < b`` (already clipped) as complex128 or float64."""
@@ -128,7 +140,9 @@ class _MemmapSource:
         for i, (first, stop, _) in enumerate(self.pieces):
             lo, hi = max(a, first), min(b, stop)
             if lo < hi:
-                parts.append(np.array(self._map(i)[lo - first:hi - first, 0, :], dtype=np.float64))
+                v = self._read(i, lo, hi, self.component)
+                v = v.reshape(hi - lo, self.n_channels, self.n_comp)[:, 0, :]
+                parts.append(np.array(v, dtype=np.float64))
         x = np.concatenate(parts) if len(parts) != 1 else parts[0]
         if self.bias:
             x = x - self.bias
@@ -237,6 +251,10 @@ class Capture:
         if b <= a:
             return np.empty(0, dtype=np.complex64)
         if not self.real:
+            direct = getattr(self._source, "read_complex64", None)
+            x = direct(a, b) if direct is not None else None
+            if x is not None:
+                return x
             return np.asarray(self._source.raw(a, b), dtype=np.complex64)
         ra = max(0, a - HILBERT_MARGIN)
         rb = min(self.n_samples, b + HILBERT_MARGIN)

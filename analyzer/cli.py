@@ -188,6 +188,42 @@ def sweep(
     raise typer.Exit(code)
 
 
+@app.command()
+def batch(
+    captures: list[str] = typer.Argument(..., metavar="DIR|GLOB|CAPTURE...",
+                                         help="Folders (their .sigmf-meta/.wav/.flac files), glob patterns or "
+                                              "capture files."),
+    tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
+    baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate, Hz."),
+    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
+                                            help="Test pattern: auto (default), none, PN7 ... PN23, bits:FILE."),
+    spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
+                                        help="Judge every capture against this spec."),
+    out: Path = typer.Option(Path("reports"), "--out", help="Folder for each capture's reports and the summary."),
+    name: str = typer.Option("batch", "--name", help="Base name of the summary files (NAME.json/.csv/.html)."),
+    workers: Optional[int] = typer.Option(None, "--workers", min=1,
+                                          help="Processes of the local pool (default: the number of CPUs)."),
+    cluster: Optional[str] = typer.Option(None, "--cluster", metavar="ADDRESS",
+                                          help="Run on this Dask scheduler instead of a local pool "
+                                               "(needs the 'cluster' extra)."),
+    overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
+    quiet: bool = typer.Option(False, "--quiet", help="No per-capture lines on the terminal."),
+):
+    """Analyse many captures in parallel; one summary as JSON, CSV and HTML (exit 2 if any capture
+    could not be analysed, else 1 if any failed its spec)."""
+    from .batch import BatchOptions, run_batch
+
+    try:
+        opts = BatchOptions(tones=_pair(tones, "--tones"), baud=baud, reference=reference,
+                            spec_path=str(spec) if spec else None, out=str(out), overwrite=overwrite)
+        code, _ = run_batch(captures, opts, name=name, workers=workers, cluster=cluster, quiet=quiet)
+    except typer.Exit:
+        raise
+    except Exception as exc:  # noqa: BLE001
+        _fail(exc)
+    raise typer.Exit(code)
+
+
 def main() -> None:
     """Console-script entry point."""
     try:

@@ -16,17 +16,17 @@ from .report.files import check_output, write_atomic
 
 
 def _progress_bar(quiet: bool):
-    """A rich progress callback for the first pass, or None when quiet or not a terminal."""
+    """A rich progress bar over all passes of the analysis, or (None, None) when quiet or not a terminal."""
     if quiet or not sys.stdout.isatty():
         return None, None
     from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
-    prog = Progress(TextColumn("reading"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
+    prog = Progress(TextColumn("{task.description:<20}"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
                     TimeRemainingColumn(), transient=True)
-    task = prog.add_task("read", total=1)
+    task = prog.add_task("reading", total=1)
 
-    def cb(done: int, total: int) -> None:
-        prog.update(task, total=max(total, 1), completed=done)
+    def cb(done: int, total: int, stage: str = "reading") -> None:
+        prog.update(task, total=max(total, 1), completed=done, description=stage)
 
     return prog, cb
 

@@ -19,8 +19,21 @@ from .errors import CaptureWarning, InputError, warn
 
 __all__ = ["AnalysisOptions", "BurstResult", "Summary", "AnalysisResult", "analyze", "analyze_capture"]
 
-BLOCK_FRAMES = 4096          # power-trace frames read per block
 MIN_SYMBOLS = 16             # shortest burst analysed
+
+#: Samples read per block in the passes over the capture (rounded up to a
+#: multiple of :data:`QUANTUM` and of every frame length used).  The results do
+#: not depend on it: every sum is formed per quantum, frames never straddle a
+#: block, and the per-quantum sums are added up in one go at the end.
+BLOCK_SAMPLES = 1 << 20
+#: Samples per partial sum (a power of two, at least the spectrogram frame).
+QUANTUM = 1 << 12
+#: Longest stretch of the capture read at once for burst analysis.  A region
+#: of the power trace longer than this is analysed in consecutive pieces of at
+#: most this many samples, cut where the trace is quietest (and, inside one
+#: unbroken burst, at a piece edge: such a burst is then reported as several
+#: consecutive bursts).  8 Msamples is 128 MB as complex128.
+MAX_REGION_SAMPLES = 1 << 23
 
 
 @dataclass(frozen=True)
@@ -183,38 +196,73 @@ class _Scan:
 
     mean: complex
     power: float          # mean |x|^2
-    peak: float
     clipped: int
+    any_signal: bool      # some sample is not zero
 
 
-def _scan(cap: Capture, block: int) -> _Scan:
-    """First pass: first non-finite sample, mean (DC offset), peak and clipped samples."""
+def _block_size(block: int | None, *frames: int) -> int:
+    """Read block: at least ``block`` samples, a whole multiple of QUANTUM and of each frame."""
+    unit = max((QUANTUM,) + tuple(int(f) for f in frames))
+    want = max(int(block or BLOCK_SAMPLES), unit)
+    return -(-want // unit) * unit
+
+
+def _first_bad(x: np.ndarray, pos: int, path) -> None:
+    finite = np.isfinite(x)
+    if not np.all(finite):
+        bad = pos + int(np.flatnonzero(~finite)[0])
+        raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", path,
+                         "the recording is corrupt; trim or re-record it")
+
+
+def _quantum_sums(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sum and energy of each QUANTUM of ``x`` (the last one may be short)."""
+    full = len(x) // QUANTUM * QUANTUM
+    parts = [x[:full].reshape(-1, QUANTUM)] if full else []
+    sums = [np.sum(q, axis=1, dtype=np.complex128) for q in parts]
+    v = x.view(np.float32) if x.dtype == np.complex64 else x.astype(np.complex64).view(np.float32)
+    vq = v[:2 * full].reshape(-1, 2 * QUANTUM)
+    energy = [np.einsum("ij,ij->i", vq, vq, dtype=np.float64)] if full else []
+    if full < len(x):
+        sums.append(np.array([np.sum(x[full:], dtype=np.complex128)]))
+        t = v[2 * full:].astype(np.float64)
+        energy.append(np.array([np.dot(t, t)]))
+    return (np.concatenate(sums) if sums else np.empty(0, complex),
+            np.concatenate(energy) if energy else np.empty(0))
+
+
+def _scan(cap: Capture, block: int, progress=None, stage: str = "checking samples") -> _Scan:
+    """First pass: first non-finite sample, mean (DC offset), power and clipped samples.
+
+    Sums are formed per :data:`QUANTUM` samples and added at the end, so the
+    result is the same for any block size.
+    """
     level = getattr(cap, "clip_level", None)
-    total = 0j
-    energy = 0.0
-    peak = 0.0
+    sums, energies = [], []
     clipped = 0
     pos = 0
     while pos < cap.n_samples:
         x = cap.read(pos, block)
         if len(x) == 0:
             break
-        finite = np.isfinite(x)
-        if not np.all(finite):
-            bad = pos + int(np.flatnonzero(~finite)[0])
-            raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", cap.path,
-                             "the recording is corrupt; trim or re-record it")
-        total += complex(np.sum(x, dtype=np.complex128))
-        energy += float(np.sum(np.abs(x.astype(np.complex128)) ** 2))
-        peak = max(peak, float(np.max(np.abs(x))))
+        sm, en = _quantum_sums(x)
+        if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
+            _first_bad(x, pos, cap.path)
+        sums.append(sm)
+        energies.append(en)
         if level is not None:
             over = np.abs(x.real) >= level
             if cap.kind != "audio":          # audio: the imaginary part is computed, not stored
                 over |= np.abs(x.imag) >= level
             clipped += int(np.count_nonzero(over))
         pos += len(x)
+        if progress:
+            progress(pos, cap.n_samples, stage)
     n = max(pos, 1)
-    return _Scan(mean=total / n, power=energy / n, peak=peak, clipped=clipped)
+    sm = np.concatenate(sums) if sums else np.zeros(1, complex)
+    en = np.concatenate(energies) if energies else np.zeros(1)
+    total_e = float(np.sum(en))
+    return _Scan(mean=complex(np.sum(sm)) / n, power=total_e / n, clipped=clipped, any_signal=total_e > 0)
 
 
 def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
@@ -224,17 +272,55 @@ def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
     d = np.complex64(dc)
 
     def read(start: int, count: int) -> np.ndarray:
-        return cap.read(start, count) - d
+        x = cap.read(start, count)
+        x -= d
+        return x
 
     return read
 
 
-def _power_trace(cap: Capture, band, frame: int, noise_bands, nfft_psd: int, progress, read=None):
-    """One pass over the capture: in-band power trace and an averaged spectrum."""
-    read = read or cap.read
-    block = frame * BLOCK_FRAMES
-    block -= block % nfft_psd if block > nfft_psd else 0
-    powers, noises = [], []
+@dataclass(frozen=True)
+class _TraceSpec:
+    """What the power trace needs: band, frame and noise bands."""
+
+    band: tuple[float, float]
+    frame: int
+    noise_bands: list
+
+
+@dataclass
+class _Spectra:
+    """What the spectral passes collect."""
+
+    spectrogram: np.ndarray
+    freqs: np.ndarray
+    psd: np.ndarray
+    power: np.ndarray | None = None
+    noise: np.ndarray | None = None
+
+
+def _hann32(n: int) -> np.ndarray:
+    return np.hanning(n).astype(np.float32)
+
+
+def _spectra_pass(cap: Capture, read, block: int, nfft_psd: int, trace: _TraceSpec | None,
+                  progress=None, stage: str = "spectrum") -> _Spectra:
+    """One pass: spectrogram cells, averaged spectrum and (when ``trace``) the band-power trace.
+
+    The spectrogram frame (:data:`acquire.SPECTROGRAM_NFFT` samples, Hann
+    window) and the averaged spectrum share one FFT per frame when the capture
+    is long enough for that frame (the spectrum is the mean of the frames'
+    periodograms); shorter captures get a shorter spectrum frame.
+    """
+    import scipy.fft
+
+    nfft = acquire.SPECTROGRAM_NFFT
+    cells = acquire.SPECTROGRAM_CELLS
+    w = _hann32(nfft)
+    w2 = float(np.sum(np.hanning(nfft) ** 2))
+    shared = nfft_psd == nfft
+    wp = w if shared else _hann32(nfft_psd)
+    sg_parts, powers, noises = [], [], []
     psd = np.zeros(nfft_psd)
     n_psd = 0
     pos = 0
@@ -242,27 +328,82 @@ def _power_trace(cap: Capture, band, frame: int, noise_bands, nfft_psd: int, pro
         x = read(pos, block)
         if len(x) == 0:
             break
-        if not np.all(np.isfinite(x)):
-            bad = pos + int(np.flatnonzero(~np.isfinite(x))[0])
-            raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", cap.path,
-                             "the recording is corrupt; trim or re-record it")
-        p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, band, frame, noise_bands)
-        powers.append(p)
-        noises.append(nd)
-        m = len(x) // nfft_psd
+        m = len(x) // nfft
         if m:
-            seg = x[:m * nfft_psd].reshape(m, nfft_psd) * np.hanning(nfft_psd)
-            psd += np.sum(np.abs(np.fft.fft(seg, axis=1)) ** 2, axis=0)
-            n_psd += m
+            spec = np.abs(scipy.fft.fft(x[:m * nfft].reshape(m, nfft) * w, axis=1)) ** 2
+            if shared:
+                psd += np.sum(spec, axis=0, dtype=np.float64)
+                n_psd += m
+            spec = np.fft.fftshift(spec, axes=1) / np.float32(w2)
+            sg_parts.append(spec.reshape(m, cells, nfft // cells).mean(axis=2, dtype=np.float32))
+        if not shared:
+            mp = len(x) // nfft_psd
+            if mp:
+                seg = x[:mp * nfft_psd].reshape(mp, nfft_psd) * wp
+                psd += np.sum(np.abs(scipy.fft.fft(seg, axis=1)) ** 2, axis=0, dtype=np.float64)
+                n_psd += mp
+        if trace is not None:
+            p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, trace.band, trace.frame, trace.noise_bands)
+            powers.append(p)
+            noises.append(nd)
         pos += len(x)
         if progress:
-            progress(pos, cap.n_samples)
-    power = np.concatenate(powers) if powers else np.empty(0)
-    noise = np.concatenate(noises) if noises else np.empty(0)
+            progress(pos, cap.n_samples, stage)
     if n_psd:
-        psd /= n_psd * np.sum(np.hanning(nfft_psd) ** 2)
+        psd /= n_psd * float(np.sum(np.hanning(nfft_psd) ** 2))
     freqs = np.fft.fftshift(np.fft.fftfreq(nfft_psd, 1.0 / cap.sample_rate_hz))
-    return power, noise, freqs, np.fft.fftshift(psd)
+    sg = np.concatenate(sg_parts) if sg_parts else np.empty((0, cells), np.float32)
+    out = _Spectra(spectrogram=sg, freqs=freqs, psd=np.fft.fftshift(psd))
+    if trace is not None:
+        out.power = np.concatenate(powers) if powers else np.empty(0)
+        out.noise = np.concatenate(noises) if noises else np.empty(0)
+    return out
+
+
+def _power_trace(cap: Capture, read, block: int, trace: _TraceSpec, progress=None, stage: str = "power trace"):
+    """One pass over the capture: the in-band power trace and out-of-band noise estimate."""
+    powers, noises = [], []
+    pos = 0
+    while pos < cap.n_samples:
+        x = read(pos, block)
+        if len(x) == 0:
+            break
+        p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, trace.band, trace.frame, trace.noise_bands)
+        powers.append(p)
+        noises.append(nd)
+        pos += len(x)
+        if progress:
+            progress(pos, cap.n_samples, stage)
+    return (np.concatenate(powers) if powers else np.empty(0),
+            np.concatenate(noises) if noises else np.empty(0))
+
+
+def _trace_frame(cap: Capture, band: tuple[float, float], rs: float | None) -> tuple[int, list]:
+    """Power-trace frame and noise bands for ``band`` (frame from the symbol rate when known)."""
+    fs = cap.sample_rate_hz
+    if rs is not None:
+        frame = acquire.frame_length(fs, rs)
+        guard_hz = rs
+    else:
+        bw = band[1] - band[0]
+        frame = int(2 ** np.ceil(np.log2(max(16.0, 16.0 * fs / bw))))
+        guard_hz = 0.25 * bw
+    return frame, _noise_bands(cap, band, guard_hz)
+
+
+def _split_region(a: int, b: int, power: np.ndarray, frame: int, limit: int) -> list[tuple[int, int]]:
+    """Cut ``[a, b)`` into pieces of at most ``limit`` samples at the quietest frame edges."""
+    out = []
+    while b - a > limit:
+        lo_f = (a + limit // 2) // frame
+        hi_f = (a + limit) // frame
+        seg = power[lo_f:hi_f]
+        cut = (lo_f + int(np.argmin(seg))) * frame if seg.size else a + limit
+        cut = min(max(cut, a + 1), a + limit)
+        out.append((a, cut))
+        a = cut
+    out.append((a, b))
+    return out
 
 
 def _merge_spans(spans, gap: int, margin: int, n_samples: int) -> list[tuple[int, int]]:
@@ -513,8 +654,14 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     if not (g2 > 0 and s2 > 0):
         return None
     g = np.sqrt(g2)
-    r = np.abs(z[np.arange(ext.n_symbols), np.asarray(bits, np.int64) % 2])
+    b_idx = np.asarray(bits, np.int64) % 2
+    r = np.abs(z[np.arange(ext.n_symbols), b_idx])
     llr = decide.log_i0(2 * g * r / s2) - g2 / s2
+    # correlated tones: the other branch carries the leakage |rho| g when the tone is there
+    rho = abs(branches.template_correlation(tones, fs, grid.window))
+    if rho > 0.05:
+        r_o = np.abs(z[np.arange(ext.n_symbols), 1 - b_idx])
+        llr = llr + decide.log_i0(2 * rho * g * r_o / s2) - (rho * g) ** 2 / s2
     first, stop = pre, pre + n                  # current edges in the extended grid
     tau = EDGE_LLR
     while first > 0 and llr[first - 1] > tau:
@@ -560,23 +707,6 @@ def _summary(bursts: list[BurstResult]) -> Summary:
 
 
 # --------------------------------------------------------------------------- entry points
-def _spectrogram(cap: Capture, read, progress) -> np.ndarray:
-    """Coarse spectrogram of the whole capture (frames of SPECTROGRAM_NFFT samples, 128 cells)."""
-    nfft = acquire.SPECTROGRAM_NFFT
-    block = nfft * 256
-    parts = []
-    pos = 0
-    while pos < cap.n_samples:
-        x = read(pos, block)
-        if len(x) == 0:
-            break
-        parts.append(acquire.spectrogram_cells(x, nfft).astype(np.float32))
-        pos += len(x)
-        if progress:
-            progress(pos, cap.n_samples)
-    return np.concatenate(parts) if parts else np.empty((0, acquire.SPECTROGRAM_CELLS), np.float32)
-
-
 def _thin_spectrogram(sg: np.ndarray, max_frames: int = 1200) -> np.ndarray:
     """At most ``max_frames`` rows (block means) for the report figure."""
     if sg.shape[0] <= max_frames:
@@ -622,19 +752,38 @@ def _common_rate(starts: list) -> list:
 
 
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
-                    progress: Callable[[int, int], None] | None = None,
-                    prior_warnings: tuple[str, ...] = ()) -> AnalysisResult:
+                    progress: Callable[[int, int, str], None] | None = None,
+                    prior_warnings: tuple[str, ...] = (), block: int | None = None) -> AnalysisResult:
     """Analyse an opened capture (see :func:`analyze`).
 
     ``prior_warnings`` (from opening the capture) are put first in the result's warnings.
+    ``block`` is the number of samples read at a time in the passes over the
+    capture (default :data:`BLOCK_SAMPLES`); it changes memory use, not results.
     """
     _check_hints(cap, opts)
     fs = cap.sample_rate_hz
     nfft_psd = int(min(acquire.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
+    # the passes: scan, spectra (+ power trace when the band is known from the hints),
+    # power trace (blind only), then the bursts; progress counts samples over all of them
+    n_passes = 3 if opts.tones_hz is not None else 4
+    done = {"pass": 0}
+
+    def stage_progress(name: str):
+        if progress is None:
+            return None
+        k = done["pass"]
+        done["pass"] += 1
+        total = n_passes * cap.n_samples
+
+        def cb(pos: int, n: int, _stage: str = name) -> None:
+            progress(k * cap.n_samples + int(pos * cap.n_samples / max(n, 1)), total, _stage)
+
+        return cb
+
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
-        scan = _scan(cap, 1 << 16)
-        if cap.n_samples == 0 or scan.peak == 0:
+        scan = _scan(cap, _block_size(block), stage_progress("checking samples"), "checking samples")
+        if cap.n_samples == 0 or not scan.any_signal:
             raise InputError("the capture holds no signal (all samples are zero)", cap.path,
                              "check the recording chain")
         clipped_fraction = None
@@ -645,13 +794,19 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                      f"limit (|I| or |Q| >= {cap.clip_level:.4g} of full scale): the capture is clipped, so "
                      "tone energies and Eb/N0 are biased; lower the receiver gain")
         read = _reader(cap, scan.mean)
-        # The band to watch: from the hints, or found in a spectrogram of the whole capture.
-        sgram = _spectrogram(cap, read, progress if opts.tones_hz is None else None)
+        rs = opts.symbol_rate_hz
+        known: _TraceSpec | None = None
         if opts.tones_hz is not None:
+            # the band to watch is known from the hints: one pass gives spectra and power trace
             f0, f1 = opts.tones_hz
-            guard = opts.symbol_rate_hz if opts.symbol_rate_hz is not None else f1 - f0
+            guard = rs if rs is not None else f1 - f0
             band = (f0 - guard, f1 + guard)
-        else:
+            known = _TraceSpec(band, *_trace_frame(cap, band, rs))
+        blk = _block_size(block, nfft_psd, acquire.SPECTROGRAM_NFFT, known.frame if known else 1)
+        spectra = _spectra_pass(cap, read, blk, nfft_psd, known, stage_progress("spectrum"),
+                                "spectrum and power" if known else "spectrum")
+        sgram = spectra.spectrogram
+        if known is None:
             band = acquire.occupied_band(sgram, fs, positive_only=cap.kind == "audio")
             if band is None:
                 floor_db = 10 * np.log10(max(float(np.median(sgram)) * nfft_psd / nfft_psd, 1e-30)) \
@@ -659,17 +814,16 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                 raise InputError(f"no tone bursts found above the noise floor ({floor_db:.1f} dBFS per "
                                  f"sample)", cap.path, "check that the capture holds a transmission, or give "
                                  "--tones and --baud")
-        bw = band[1] - band[0]
-        rs = opts.symbol_rate_hz
-        if rs is not None:
-            frame = acquire.frame_length(fs, rs)
-            guard_hz = rs
+            spec = _TraceSpec(band, *_trace_frame(cap, band, rs))
+            power, noise = _power_trace(cap, read, _block_size(block, spec.frame), spec,
+                                        stage_progress("power trace"))
         else:
-            frame = int(2 ** np.ceil(np.log2(max(16.0, 16.0 * fs / bw))))
-            guard_hz = 0.25 * bw
+            spec = known
+            power, noise = spectra.power, spectra.noise
+        frame = spec.frame
+        freqs, psd = spectra.freqs, spectra.psd
+        bw = band[1] - band[0]
         sps_min = fs / rs if rs is not None else max(2.0, fs / bw)
-        power, noise, freqs, psd = _power_trace(cap, band, frame, _noise_bands(cap, band, guard_hz), nfft_psd,
-                                                progress if opts.tones_hz is not None else None, read)
         bins = acquire.band_bins(fs, band, frame)
         trace = acquire.PowerTrace(power, noise, frame, bins, band)
         spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps_min)
@@ -693,6 +847,10 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
         # (gaps up to twice the longest moving average of the burst search)
         k_long = int(np.ceil(1.0 / (0.08 ** 2 * max(bins, 1))))
         regions = _merge_spans(spans, gap=int(2 * k_long * frame), margin=margin, n_samples=cap.n_samples)
+        regions = [piece for a, b in regions for piece in _split_region(a, b, power, frame, MAX_REGION_SAMPLES)]
+        burst_cb = stage_progress("bursts")
+        region_total = max(sum(b - a for a, b in regions), 1)
+        region_done = 0
         bursts: list[BurstResult] = []
         starts = []
         for a, b in regions:
@@ -702,7 +860,10 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
         # the noise floor where each region lies (it may drift along the capture)
         track = acquire.floor_track(trace, floor) * frame / max(bins, 1)
         for (a, b), start in zip(regions, starts):
+            region_done += b - a
             if start is None:
+                if burst_cb:
+                    burst_cb(region_done, region_total)
                 continue
             x = read(a, b - a).astype(np.complex128)
             tones0, rs0 = start[:2]
@@ -711,11 +872,14 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
             for grid0, first, stop in _acquire_bursts_in_span(x, a, fs, tones0, rs0, local_nv):
                 bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
                                              bits_text, full_scale, tones0, rs0))
+            if burst_cb:
+                burst_cb(region_done, region_total)
         sps = sps_min
         if not bursts:
             # were there bursts, only too short?  Segment again, keeping runs of 2 symbols or more.
             short = _merge_spans(acquire.find_bursts(trace, 2 * sps)[0], gap=int(4 * sps), margin=margin,
                                  n_samples=cap.n_samples)
+            short = [piece for a, b in short for piece in _split_region(a, b, power, frame, MAX_REGION_SAMPLES)]
             longest = 0
             for a, b in short:
                 x = read(a, b - a).astype(np.complex128)
@@ -745,7 +909,8 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
 def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None,
             sample_rate_hz: float | None = None, fmt: str | None = None, reference: str = "auto",
             decision: str = "square-law",
-            progress: Callable[[int, int], None] | None = None, strict: bool = False) -> AnalysisResult:
+            progress: Callable[[int, int, str], None] | None = None, strict: bool = False,
+            block: int | None = None) -> AnalysisResult:
     """Analyse a capture of two-tone FSK bursts.
 
     Parameters
@@ -764,9 +929,15 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     decision : str
         ``square-law`` or ``likelihood``.
     progress : callable, optional
-        Called as ``progress(done_samples, total_samples)`` during the first pass.
+        Called as ``progress(done, total, stage)`` as the analysis goes: ``done``
+        of ``total`` work units (samples, counted once per pass over the capture
+        and once for the burst regions) and the name of the current stage.
     strict : bool
         A SigMF checksum mismatch is an error instead of a warning.
+    block : int, optional
+        Samples read at a time in the passes over the capture (default
+        :data:`BLOCK_SAMPLES`, rounded up to whole frames); results do not
+        depend on it.
 
     Returns
     -------
@@ -797,4 +968,4 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     opts = AnalysisOptions(tones_hz=None if tones_hz is None else (float(tones_hz[0]), float(tones_hz[1])),
                            symbol_rate_hz=None if symbol_rate_hz is None else float(symbol_rate_hz),
                            reference=reference, decision=decision)
-    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress, prior_warnings=opened)
+    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress, prior_warnings=opened, block=block)

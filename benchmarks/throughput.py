@@ -1,0 +1,160 @@
+"""Throughput and memory of ``analyzer.analyze`` on long captures.
+
+Writes two SigMF ``cf32_le`` captures (8 M and 32 M samples at 1 Msample/s,
+50 kBd bursts of two tones filling about 16% of the time, Eb/N0 12 dB) into a
+temporary folder, then in a fresh child process per run times
+
+* ``analyzer.analyze(path, tones_hz=..., symbol_rate_hz=...)``, and
+* the reference: ``numpy.fromfile`` of the samples plus one ``numpy.vdot``,
+
+and prints Msample/s, the marginal cost per sample between the two sizes
+(``(t(32M) - t(8M)) / 24M``) against the reference's, and the growth of the
+child's peak resident memory between the two sizes.
+
+Targets: marginal cost at most 4x the reference's; memory growth at most 64 MB.
+
+The captures carry no ``core:sha512``: checking a checksum is one more read of
+the file that the reference does not make.
+
+Run with ``make bench`` or ``python benchmarks/throughput.py [--sizes 8,32] [--repeat N]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+FS = 1e6
+BAUD = 50e3
+TONES = (-50e3, 50e3)
+EBN0_DB = 12.0
+BURST_SYMBOLS = 4000            # 80 000 samples
+PERIOD = 500_000                # one burst every 0.5 s: 16% of the time
+FIRST = 100_000
+AMPLITUDE = 0.25
+BLOCK = 1 << 20
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+def write_capture(base: Path, n_samples: int, seed: int = 1) -> Path:
+    """Write ``base.sigmf-data/-meta`` block by block (never the whole capture in memory)."""
+    import sigmf
+    from sigmf import sigmffile
+
+    from analyzer import prbs
+
+    rng = np.random.default_rng(seed)
+    sps = int(FS / BAUD)
+    sigma = AMPLITUDE * np.sqrt(sps / 10 ** (EBN0_DB / 10))
+    starts = np.arange(FIRST, n_samples - BURST_SYMBOLS * sps, PERIOD)
+    bits = prbs.prbs_sequence("PN9", BURST_SYMBOLS * len(starts))
+    freq = np.asarray(TONES)[bits]
+    phase0 = rng.uniform(0, 2 * np.pi, bits.size)
+    data = base.with_name(base.name + ".sigmf-data")
+    with open(data, "wb") as fp:
+        for pos in range(0, n_samples, BLOCK):
+            m = min(BLOCK, n_samples - pos)
+            x = (sigma / np.sqrt(2)) * (rng.standard_normal(m) + 1j * rng.standard_normal(m))
+            n = pos + np.arange(m)
+            k_burst = (n - FIRST) // PERIOD
+            offs = (n - FIRST) - k_burst * PERIOD
+            on = (n >= FIRST) & (offs < BURST_SYMBOLS * sps) & (k_burst < len(starts))
+            sym = k_burst[on] * BURST_SYMBOLS + offs[on] // sps
+            x[on] += AMPLITUDE * np.exp(1j * (phase0[sym] + 2 * np.pi * freq[sym] * n[on] / FS))
+            fp.write(x.astype(np.complex64).tobytes())
+    meta = {"global": {"core:datatype": "cf32_le", "core:version": sigmf.__specification__,
+                       "core:sample_rate": FS, "core:description": "throughput benchmark"},
+            "captures": [{"core:sample_start": 0}], "annotations": []}
+    rec = sigmffile.SigMFFile(metadata=meta)
+    rec.validate()
+    meta_path = base.with_name(base.name + ".sigmf-meta")
+    meta_path.write_text(rec.dumps(pretty=True) + "\n")
+    return meta_path
+
+
+CHILD_ANALYZE = """
+import json, resource, sys, time
+import analyzer
+t = time.perf_counter()
+r = analyzer.analyze(sys.argv[1], tones_hz=%r, symbol_rate_hz=%r)
+dt = time.perf_counter() - t
+s = r.summary
+print(json.dumps({"seconds": dt, "maxrss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
+                  "bursts": len(r.bursts), "bits": s.ber.bits if s.ber else 0,
+                  "errors": s.ber.errors if s.ber else 0, "ebn0_db": float(s.stats.ebn0_db)}))
+""" % (TONES, BAUD)
+
+CHILD_REFERENCE = """
+import json, resource, sys, time
+import numpy as np
+t = time.perf_counter()
+x = np.fromfile(sys.argv[1], dtype=np.complex64)
+v = np.vdot(x, x)
+dt = time.perf_counter() - t
+print(json.dumps({"seconds": dt, "maxrss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
+                  "value": float(v.real)}))
+"""
+
+
+def child(code: str, arg: str) -> dict:
+    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""),
+               MPLBACKEND="Agg")
+    out = subprocess.run([sys.executable, "-c", code, arg], check=True, capture_output=True, text=True, env=env)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def best(code: str, arg: str, repeat: int) -> dict:
+    runs = [child(code, arg) for _ in range(repeat)]
+    return min(runs, key=lambda r: r["seconds"]) | {"maxrss_kb": max(r["maxrss_kb"] for r in runs)}
+
+
+def main() -> int:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("--sizes", default="8,32", help="two capture sizes in Msamples (default 8,32)")
+    ap.add_argument("--repeat", type=int, default=2, help="runs per measurement; the fastest is kept")
+    a = ap.parse_args()
+    sizes = [int(float(s) * 1_000_000) for s in a.sizes.split(",")]
+    if len(sizes) != 2 or sizes[0] >= sizes[1]:
+        ap.error("--sizes needs two increasing sizes")
+    res = {}
+    with tempfile.TemporaryDirectory(prefix="tonepair-bench-") as tmp:
+        for n in sizes:
+            meta = write_capture(Path(tmp) / f"bench_{n // 1_000_000}M", n)
+            data = str(meta).removesuffix("meta") + "data"
+            child(CHILD_REFERENCE, data)          # warm the page cache once
+            res[n] = {"analyze": best(CHILD_ANALYZE, str(meta), a.repeat),
+                      "reference": best(CHILD_REFERENCE, data, a.repeat)}
+            Path(data).unlink()                   # keep at most one capture on disk
+
+    print(f"tonepair throughput: {FS / 1e6:g} Msample/s cf32, {BAUD / 1e3:g} kBd bursts, "
+          f"{100 * BURST_SYMBOLS * FS / BAUD / PERIOD:.0f}% of the time, Eb/N0 {EBN0_DB:g} dB")
+    print(f"{'samples':>10} {'analyze s':>10} {'Msample/s':>10} {'reference s':>12} {'ref Msample/s':>14} "
+          f"{'peak RSS MB':>12} {'bursts':>7} {'bits':>9} {'errors':>7} {'Eb/N0 dB':>9}")
+    for n, r in res.items():
+        an, ref = r["analyze"], r["reference"]
+        print(f"{n:>10} {an['seconds']:>10.3f} {n / an['seconds'] / 1e6:>10.2f} {ref['seconds']:>12.3f} "
+              f"{n / ref['seconds'] / 1e6:>14.1f} {an['maxrss_kb'] / 1024:>12.1f} {an['bursts']:>7} "
+              f"{an['bits']:>9} {an['errors']:>7} {an['ebn0_db']:>9.2f}")
+    n0, n1 = sizes
+    dn = n1 - n0
+    m_an = (res[n1]["analyze"]["seconds"] - res[n0]["analyze"]["seconds"]) / dn
+    m_ref = (res[n1]["reference"]["seconds"] - res[n0]["reference"]["seconds"]) / dn
+    ratio = m_an / m_ref if m_ref > 0 else float("inf")
+    grow = (res[n1]["analyze"]["maxrss_kb"] - res[n0]["analyze"]["maxrss_kb"]) / 1024
+    print(f"marginal cost: analyze {1e9 * m_an:.2f} ns/sample, reference {1e9 * m_ref:.2f} ns/sample, "
+          f"ratio {ratio:.2f} (target <= 4) {'ok' if ratio <= 4 else 'OVER'}")
+    print(f"peak memory growth {n0 // 1_000_000}M -> {n1 // 1_000_000}M: {grow:.1f} MB "
+          f"(target <= 64 MB) {'ok' if grow <= 64 else 'OVER'}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
