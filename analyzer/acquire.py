@@ -406,7 +406,12 @@ def lag_products(rows: np.ndarray) -> np.ndarray:
     :func:`noncoherent_frequency` maximises without an FFT grid.
     """
     L = rows.shape[1]
-    return np.array([np.vdot(rows[:, :L - l], rows[:, l:]) for l in range(L)])
+    nfft = int(2 ** np.ceil(np.log2(2 * L)))
+    spec = np.fft.fft(rows, n=nfft, axis=1)
+    # sum over rows of each row's autocorrelation, through one inverse FFT
+    acf = np.fft.ifft(np.sum(np.abs(spec) ** 2, axis=0))
+    # acf[l] = sum_k sum_m r[k, m + l] conj(r[k, m])
+    return acf[:L]
 
 
 def _periodogram_from_lags(R: np.ndarray, f: np.ndarray, fs: float) -> np.ndarray:

@@ -409,6 +409,11 @@ def decision_gain(ebn0: float, imbalance_db: float) -> DecisionGain:
     """
     if not (np.isfinite(ebn0) and ebn0 > 0 and np.isfinite(imbalance_db)):
         return DecisionGain(float("nan"), float("nan"), float("nan"))
+    if abs(imbalance_db) < theory.IMBALANCE_NEGLIGIBLE_DB:
+        # equal energies: the likelihood-ratio rule is the square-law rule; the
+        # gain grows with the square of the imbalance and is < 0.001 dB here
+        p = float(theory.ber_orthogonal(ebn0))
+        return DecisionGain(p, p, 0.0)
     r = 10 ** (abs(imbalance_db) / 10)
 
     def split(x):

@@ -239,3 +239,19 @@ def test_blind_ber_matches_counted(ebn0_db):
     outside = stats.binom.cdf(np.floor(n_sym * pb / 1.5), n_sym, pb) + stats.binom.sf(np.ceil(1.5 * n_sym * pb), n_sym, pb)
     assert outside < 1e-6
     assert 1 / 1.5 < b.ber.rate / blind < 1.5
+
+
+@pytest.mark.parametrize("ebn0_db,n_sym", [(10.9, 60000), (12.0, 300000)])
+def test_blind_ber_matches_counted_low_ber(ebn0_db, n_sym):
+    """The low end of the range: BER ~1e-3 (handbook: 10.9 dB for 1e-3, standard textbook curves,
+    from memory) and ~2e-4 at 12 dB (about 55 errors in 300k bits)."""
+    out = _run(SynthParams(ebn0_db=ebn0_db, symbols_per_burst=n_sym, seed=70 + int(ebn0_db)))
+    b = out.bursts[0]
+    blind, _ = b.blind_ber
+    pb = 0.5 * np.exp(-10 ** (ebn0_db / 10) / 2)       # Proakis & Salehi, from memory
+    n = b.ber.bits
+    # How often the count alone leaves [1/1.5, 1.5] of its mean (scipy.stats.binom): stated, and
+    # required small enough that the x1.5 check is meaningful at this size.
+    outside = stats.binom.cdf(np.floor(n * pb / 1.5), n, pb) + stats.binom.sf(np.ceil(1.5 * n * pb), n, pb)
+    assert outside < 0.05
+    assert 1 / 1.5 < max(b.ber.rate, 0.5 / n) / blind < 1.5
