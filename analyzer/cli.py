@@ -75,8 +75,10 @@ def analyze(
                                               "--format), or .wav/.flac (2 channels = I/Q, 1 = audio)."),
     tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1",
                                         help="Nominal tones in Hz: baseband from the capture centre for I/Q, "
-                                             "audio Hz for audio. Example: --tones -2500,2500"),
-    baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate in Hz."),
+                                             "audio Hz for audio. Example: --tones -2500,2500. Omit to "
+                                             "find the tones blind."),
+    baud: Optional[float] = typer.Option(None, "--baud", metavar="R",
+                                         help="Nominal symbol rate in Hz. Omit to measure it blind."),
     rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help="Sample rate of a raw file."),
     fmt: Optional[RawFormat] = typer.Option(None, "--format", help="Sample format of a raw file "
                                                                   "(little-endian interleaved I/Q)."),
@@ -105,7 +107,10 @@ def analyze(
 ):
     """Analyse one capture and write JSON and HTML reports (and PDF / SigMF annotations when asked).
 
-    Example:  tonepair analyze sample_captures/beacon_demo.sigmf-meta --tones -2500,2500 --baud 5000
+    \b
+    Examples:
+      tonepair analyze sample_captures/beacon_demo.sigmf-meta --tones -2500,2500 --baud 5000
+      tonepair analyze receiver.wav        (no hints: bursts, tones and rate found blind)
     """
     from .commands import run_analyze
 
