@@ -731,6 +731,25 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
 
 
+def _receiver_input(x: np.ndarray, kind: str) -> np.ndarray:
+    """The samples the correlators see.
+
+    For real audio the capture delivers the analytic signal ``x + j H{x}``
+    (right for spectra and for finding the tones), but the Hilbert transform
+    smears every phase step of a switched-oscillator transmitter over the
+    neighbouring samples, which costs a noncoherent correlator about half a dB.
+    The correlators therefore take ``2 Re`` of it -- the recording itself,
+    scaled so a tone has the analytic amplitude and the noise the analytic
+    variance; the image of each tone at the negative frequency that this lets
+    through is down by the Dirichlet kernel at twice the tone frequency
+    (-22 dB for 2200 Hz at 1200 Bd).
+    """
+    x = np.asarray(x)
+    if kind == "audio":
+        return (2.0 * x.real).astype(np.complex128)
+    return x.astype(np.complex128)
+
+
 def _common_rate(starts: list) -> list:
     """Bursts of one capture share a transmitter: a blind rate that is a whole multiple
     (2..6, within 0.5%) of the rate found with the strongest timing line is that
@@ -865,7 +884,7 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                 if burst_cb:
                     burst_cb(region_done, region_total)
                 continue
-            x = read(a, b - a).astype(np.complex128)
+            x = _receiver_input(read(a, b - a), cap.kind)
             tones0, rs0 = start[:2]
             fa, fb = a // frame, max(a // frame + 1, min(b // frame, len(track)))
             local_nv = float(np.median(track[fa:fb])) if fb > fa and len(track) else noise_var

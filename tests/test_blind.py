@@ -183,3 +183,22 @@ def test_noise_floor_drift_and_unequal_bursts(hints):
         # Reference: the generator's bursts -- every symbol found, start to a tenth of a symbol.
         assert b.n_symbols == t["n_symbols"]
         assert abs(b.grid.first_start - t["start_sample"]) < 1.6
+
+
+@pytest.mark.parametrize("seed", [91, 92])
+def test_receiver_audio_random_phase_ebn0(tmp_path, seed):
+    """Mono audio of a switched-oscillator transmitter (new phase every symbol): Eb/N0 to 0.3 dB.
+
+    Reference: the generator's Eb/N0, defined for real audio with N0 = 2 sigma^2 (analyzer/synth.py).
+    """
+    params = SynthParams(tones_hz=(1200.0, 2400.0), symbol_rate_hz=1200.0, sample_rate_hz=48000.0,
+                         ebn0_db=10.0, symbols_per_burst=3000, real=True, continuous_phase=False, seed=seed,
+                         start_offset_samples=4000.0)
+    res = synthesize(params)
+    path = writers.write_audio(tmp_path / "rx.wav", res.samples, 48000, subtype="FLOAT", truth=res.truth)
+    out = pipeline.analyze(path, tones_hz=(1200.0, 2400.0), symbol_rate_hz=1200.0)
+    assert abs(out.summary.stats.ebn0_db - 10.0) < 0.3
+    # and the error count inside the 99.9% band of 1/2 exp(-Eb/2N0) (Proakis & Salehi, from memory)
+    pb = theory.ber_orthogonal(10.0)
+    n = out.summary.ber.bits
+    assert stats.binom.ppf(0.0005, n, pb) <= out.summary.ber.errors <= stats.binom.isf(0.0005, n, pb)
