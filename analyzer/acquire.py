@@ -770,11 +770,19 @@ def occupied_band(cells_power: np.ndarray, sample_rate_hz: float, positive_only:
     # each other: signal cells are outliers of the excess distribution.
     global_floor = np.median(floor[valid])
     floor = np.maximum(np.minimum(floor, global_floor), 1e-6 * global_floor + 1e-300)
-    hi = np.percentile(sm, 97, axis=0)
-    excess = hi / floor - 1.0
-    med = np.median(excess[valid])
-    mad = 1.4826 * np.median(np.abs(excess[valid] - med))
-    sig = valid & (excess > med + 2.0 * n_sigma * max(mad, 1e-12 * abs(med) + 1e-12))
+    # Two views of each cell, each scored against the spread over all cells
+    # (robust z-score: median and MAD): the 97th percentile over time sees
+    # bursts that fill a few per cent of the capture; the mean over time sees
+    # weak bursts that fill most of it.
+    def zscore(v):
+        med = np.median(v[valid])
+        mad = 1.4826 * np.median(np.abs(v[valid] - med))
+        return (v - med) / max(mad, 1e-12 * abs(med) + 1e-12)
+
+    z_hi = zscore(np.percentile(sm, 97, axis=0) / floor)
+    z_mean = zscore(np.mean(sg, axis=0) / global_floor)
+    excess = np.maximum(z_hi, z_mean)
+    sig = valid & (excess > 2.0 * n_sigma)
     if not sig.any():
         return None
     # clusters of signal cells (gaps of up to 1/16 of the cells bridged); the
@@ -916,6 +924,35 @@ def _impulse_spectrum(trans: np.ndarray, length: int, sample_rate_hz: float):
     nfft = int(2 ** np.ceil(np.log2(length * 2)))
     spec = np.abs(np.fft.rfft(imp, n=nfft)) ** 2
     return np.fft.rfftfreq(nfft, 1.0 / sample_rate_hz), spec
+
+
+def blind_rate_candidates(x: np.ndarray, sample_rate_hz: float, tones_hz, n_peaks: int = 5) -> list[float]:
+    """The strongest lines of the tone-transition spectrum (see :func:`blind_symbol_rate`).
+
+    Returns up to ``n_peaks`` local maxima between a quarter and four times the
+    tone spacing, strongest first, each with its sub-multiples R/2..R/4 that
+    stay in range -- candidates for a timing-line test to choose from.
+    """
+    spacing = abs(float(tones_hz[1]) - float(tones_hz[0]))
+    trans, m = tone_transitions(x, sample_rate_hz, tones_hz)
+    if trans.size < 8 or spacing <= 0:
+        return []
+    freqs, spec = _impulse_spectrum(trans, len(x) - m + 1, sample_rate_hz)
+    sel = np.flatnonzero((freqs >= spacing / 4) & (freqs <= min(4 * spacing, 0.5 * sample_rate_hz)))
+    if sel.size < 3:
+        return []
+    step = freqs[1] - freqs[0]
+    seg = spec[sel]
+    is_max = np.r_[False, (seg[1:-1] >= seg[:-2]) & (seg[1:-1] >= seg[2:]), False]
+    peaks = sel[np.flatnonzero(is_max)]
+    peaks = peaks[np.argsort(spec[peaks])[::-1][:n_peaks]]
+    out: list[float] = []
+    for i in peaks:
+        r = float(freqs[0] + _parabolic_peak(spec, int(i)) * step)
+        for k in (1, 2, 3, 4):
+            if r / k >= spacing / 4:
+                out.append(r / k)
+    return out
 
 
 def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz=None) -> float | None:

@@ -727,7 +727,18 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
             warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
                  "give --baud to analyse it")
             return None
-        quality = acquire.symbol_timing(x, 0, fs, tones, rs, search_ppm=1000.0).line_snr
+        # the transition line can lock to a harmonic or a spur on weak bursts:
+        # keep, among the rate and its sub-multiples, the one whose timing line
+        # (see acquire.symbol_timing) stands out most
+        best = None
+        cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones)
+        for cand in cands:
+            if fs / cand > len(x) / 16:
+                continue
+            tm = acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0)
+            if best is None or tm.line_snr > best.line_snr:
+                best = tm
+        rs, quality = best.symbol_rate_hz, best.line_snr
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
 
 
