@@ -272,9 +272,8 @@ def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
     d = np.complex64(dc)
 
     def read(start: int, count: int) -> np.ndarray:
-        x = cap.read(start, count)
-        x -= d
-        return x
+        # a new array: the capture's own buffer (a view, for in-memory sources) is never changed
+        return cap.read(start, count) - d
 
     return read
 
@@ -730,14 +729,17 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
         # the transition line can lock to a harmonic or a spur on weak bursts:
         # keep, among the rate and its sub-multiples, the one whose timing line
         # (see acquire.symbol_timing) stands out most
-        best = None
+        # (the energy trace is periodic at the symbol rate, so its harmonics carry
+        # lines too -- at high SNR about as strong: the lowest rate whose line is
+        # at least half as strong as the strongest is the symbol rate)
+        tried = []
         cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones)
         for cand in cands:
             if fs / cand > len(x) / 16:
                 continue
-            tm = acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0)
-            if best is None or tm.line_snr > best.line_snr:
-                best = tm
+            tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0))
+        top = max(t.line_snr for t in tried)
+        best = min((t for t in tried if t.line_snr >= 0.5 * top), key=lambda t: t.symbol_rate_hz)
         rs, quality = best.symbol_rate_hz, best.line_snr
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
 
