@@ -277,6 +277,46 @@ def _taper() -> np.ndarray:
     return 0.5 - 0.5 * np.cos(np.pi * (np.arange(m) + 0.5) / m)
 
 
+class ArrayCapture:
+    """A capture held in memory: samples already in an array (for scripts, tests and benchmarks).
+
+    It offers what the pipeline reads from a :class:`Capture`; ``read`` returns
+    views of the array, which the pipeline never changes.
+
+    Parameters
+    ----------
+    samples : array_like
+        Complex samples (for ``kind="audio"``, the analytic signal).
+    sample_rate_hz : float
+        Sample rate.
+    kind : str
+        ``"iq"`` or ``"audio"``.
+    centre_hz : float, optional
+        RF centre frequency, if known.
+    path : str
+        Name shown in reports.
+    """
+
+    datatype = "cf32_le"
+    truth = None
+    metadata: dict = {}
+
+    def __init__(self, samples, sample_rate_hz: float, kind: str = "iq", centre_hz: float | None = None,
+                 path: str = "<memory>"):
+        self.samples = np.asarray(samples, dtype=np.complex64)
+        self.sample_rate_hz = float(sample_rate_hz)
+        self.kind = kind
+        self.centre_hz = centre_hz
+        self.path = path
+        self.data_path = path
+        self.n_samples = int(self.samples.size)
+
+    def read(self, start: int, count: int) -> np.ndarray:
+        """``count`` samples from ``start`` (fewer at the end), a view of the array."""
+        start = max(int(start), 0)
+        return self.samples[start:start + max(int(count), 0)]
+
+
 def read_all(capture: Capture) -> np.ndarray:
     """Read every sample of a capture.
 

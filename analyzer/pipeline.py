@@ -231,6 +231,20 @@ def _quantum_sums(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             np.concatenate(energy) if energy else np.empty(0))
 
 
+def _blocks(read, n_samples: int, block: int, progress=None, stage: str = ""):
+    """Yield ``(position, samples)`` over the whole capture, ``block`` samples at a time,
+    reporting progress after each block."""
+    pos = 0
+    while pos < n_samples:
+        x = read(pos, block)
+        if len(x) == 0:
+            break
+        yield pos, x
+        pos += len(x)
+        if progress:
+            progress(pos, n_samples, stage)
+
+
 def _scan(cap: Capture, block: int, progress=None, stage: str = "checking samples") -> _Scan:
     """First pass: first non-finite sample, mean (DC offset), power and clipped samples.
 
@@ -241,13 +255,11 @@ def _scan(cap: Capture, block: int, progress=None, stage: str = "checking sample
     sums, energies = [], []
     clipped = 0
     pos = 0
-    while pos < cap.n_samples:
-        x = cap.read(pos, block)
-        if len(x) == 0:
-            break
+    for start, x in _blocks(cap.read, cap.n_samples, block, progress, stage):
+        pos = start + len(x)
         sm, en = _quantum_sums(x)
         if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
-            _first_bad(x, pos, cap.path)
+            _first_bad(x, start, cap.path)
         sums.append(sm)
         energies.append(en)
         if level is not None:
@@ -255,9 +267,6 @@ def _scan(cap: Capture, block: int, progress=None, stage: str = "checking sample
             if cap.kind != "audio":          # audio: the imaginary part is computed, not stored
                 over |= np.abs(x.imag) >= level
             clipped += int(np.count_nonzero(over))
-        pos += len(x)
-        if progress:
-            progress(pos, cap.n_samples, stage)
     n = max(pos, 1)
     sm = np.concatenate(sums) if sums else np.zeros(1, complex)
     en = np.concatenate(energies) if energies else np.zeros(1)
@@ -322,11 +331,7 @@ def _spectra_pass(cap: Capture, read, block: int, nfft_psd: int, trace: _TraceSp
     sg_parts, powers, noises = [], [], []
     psd = np.zeros(nfft_psd)
     n_psd = 0
-    pos = 0
-    while pos < cap.n_samples:
-        x = read(pos, block)
-        if len(x) == 0:
-            break
+    for _, x in _blocks(read, cap.n_samples, block, progress, stage):
         m = len(x) // nfft
         if m:
             spec = np.abs(scipy.fft.fft(x[:m * nfft].reshape(m, nfft) * w, axis=1)) ** 2
@@ -345,9 +350,6 @@ def _spectra_pass(cap: Capture, read, block: int, nfft_psd: int, trace: _TraceSp
             p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, trace.band, trace.frame, trace.noise_bands)
             powers.append(p)
             noises.append(nd)
-        pos += len(x)
-        if progress:
-            progress(pos, cap.n_samples, stage)
     if n_psd:
         psd /= n_psd * float(np.sum(np.hanning(nfft_psd) ** 2))
     freqs = np.fft.fftshift(np.fft.fftfreq(nfft_psd, 1.0 / cap.sample_rate_hz))
@@ -362,17 +364,10 @@ def _spectra_pass(cap: Capture, read, block: int, nfft_psd: int, trace: _TraceSp
 def _power_trace(cap: Capture, read, block: int, trace: _TraceSpec, progress=None, stage: str = "power trace"):
     """One pass over the capture: the in-band power trace and out-of-band noise estimate."""
     powers, noises = [], []
-    pos = 0
-    while pos < cap.n_samples:
-        x = read(pos, block)
-        if len(x) == 0:
-            break
+    for _, x in _blocks(read, cap.n_samples, block, progress, stage):
         p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, trace.band, trace.frame, trace.noise_bands)
         powers.append(p)
         noises.append(nd)
-        pos += len(x)
-        if progress:
-            progress(pos, cap.n_samples, stage)
     return (np.concatenate(powers) if powers else np.empty(0),
             np.concatenate(noises) if noises else np.empty(0))
 

@@ -35,25 +35,10 @@ import time
 import numpy as np
 
 from analyzer import pipeline
+from analyzer.capture import ArrayCapture
 from analyzer.synth import SynthParams, synthesize
 
 FS, RS = 80000.0, 5000.0
-
-
-class _Cap:
-    kind = "iq"
-    centre_hz = None
-    datatype = "cf32_le"
-    path = "mem"
-    data_path = "mem"
-    sample_rate_hz = FS
-
-    def __init__(self, x):
-        self.x = np.asarray(x, np.complex64)
-        self.n_samples = len(self.x)
-
-    def read(self, a, n):
-        return self.x[a:a + n]
 
 
 def bounds(ebn0_db: float, k: int) -> dict:
@@ -89,7 +74,7 @@ def main() -> None:
                             start_offset_samples=1500.0 + 0.37 * s, seed=1000 + s)
             res = synthesize(p)
             try:
-                out = pipeline.analyze_capture(_Cap(res.samples), pipeline.AnalysisOptions(None, None))
+                out = pipeline.analyze_capture(ArrayCapture(res.samples, FS), pipeline.AnalysisOptions(None, None))
             except Exception:  # noqa: BLE001 - a miss is counted, not fatal
                 continue
             if len(out.bursts) != 1:

@@ -25,30 +25,13 @@ import pytest
 from scipy import stats
 
 from analyzer import pipeline, theory, writers
+from analyzer.capture import ArrayCapture
 from analyzer.synth import SynthParams, synthesize
-
-
-class _Cap:
-    """In-memory capture with the interface of analyzer.capture.Capture."""
-
-    kind = "iq"
-    centre_hz = None
-    datatype = "cf32_le"
-    path = "mem"
-    data_path = "mem"
-
-    def __init__(self, x, fs):
-        self.x = np.asarray(x, np.complex64)
-        self.n_samples = len(self.x)
-        self.sample_rate_hz = fs
-
-    def read(self, a, n):
-        return self.x[a:a + n]
 
 
 def _blind(params: SynthParams):
     res = synthesize(params)
-    out = pipeline.analyze_capture(_Cap(res.samples, params.sample_rate_hz), pipeline.AnalysisOptions(None, None))
+    out = pipeline.analyze_capture(ArrayCapture(res.samples, params.sample_rate_hz), pipeline.AnalysisOptions(None, None))
     return res, out
 
 
@@ -177,7 +160,7 @@ def test_noise_floor_drift_and_unequal_bursts(hints):
                          noise_drift_db=6.0, burst_gains_db=(0.0, -2.0, 2.0, 0.0))
     res = synthesize(params)
     opts = pipeline.AnalysisOptions((-2500.0, 2500.0), 5000.0) if hints else pipeline.AnalysisOptions(None, None)
-    out = pipeline.analyze_capture(_Cap(res.samples, 80000.0), opts)
+    out = pipeline.analyze_capture(ArrayCapture(res.samples, 80000.0), opts)
     assert len(out.bursts) == 4
     for b, t in zip(out.bursts, res.truth["bursts"]):
         # Reference: the generator's bursts -- every symbol found, start to a tenth of a symbol.

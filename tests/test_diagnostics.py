@@ -16,31 +16,17 @@ import pytest
 from scipy import integrate, special, stats
 
 from analyzer import branches, diagnostics, pipeline
+from analyzer.capture import ArrayCapture
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
 
 FS, RS = 80000.0, 5000.0
 
 
-class _Cap:
-    kind = "iq"
-    sample_rate_hz = FS
-    centre_hz = None
-    datatype = "cf32_le"
-    path = "mem"
-
-    def __init__(self, x):
-        self.x = np.asarray(x, np.complex64)
-        self.n_samples = len(self.x)
-
-    def read(self, a, n):
-        return self.x[a:a + n]
-
-
 def _run(params, x=None, tones=None):
     res = synthesize(params)
     xx = res.samples if x is None else x(res.samples)
-    return pipeline.analyze_capture(_Cap(xx), pipeline.AnalysisOptions(tones or params.tones_hz, RS))
+    return pipeline.analyze_capture(ArrayCapture(xx, FS), pipeline.AnalysisOptions(tones or params.tones_hz, RS))
 
 
 def test_clean_captures_are_not_flagged():

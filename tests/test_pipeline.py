@@ -23,7 +23,7 @@ import pytest
 from scipy import stats
 
 from analyzer import pipeline, writers
-from analyzer.capture import open_capture
+from analyzer.capture import ArrayCapture, open_capture
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
 
@@ -107,19 +107,8 @@ def test_ebn0_interval_coverage(tmp_path):
         params = SynthParams(ebn0_db=8.0, symbols_per_burst=1500, seed=100 + seed, start_offset_samples=400.0)
         res = synthesize(params)
 
-        class _Cap:  # in-memory capture: same interface as analyzer.capture.Capture
-            path = f"mem{seed}"
-            kind = "iq"
-            sample_rate_hz = FS
-            centre_hz = None
-            datatype = "cf32_le"
-            n_samples = len(res.samples)
-
-            @staticmethod
-            def read(a, n, _x=res.samples.astype(np.complex64)):
-                return _x[a:a + n]
-
-        out = pipeline.analyze_capture(_Cap(), pipeline.AnalysisOptions((-2500.0, 2500.0), RS))
+        out = pipeline.analyze_capture(ArrayCapture(res.samples, FS, path=f"mem{seed}"),
+                                       pipeline.AnalysisOptions((-2500.0, 2500.0), RS))
         lo, hi = out.summary.stats.ebn0_db_ci95
         hits += lo <= 8.0 <= hi
     # Reference: for a 95% interval, P(hits <= 14 of 20) = 0.3% (scipy.stats.binom(20, 0.95).cdf(14)).
@@ -161,21 +150,11 @@ def test_analysis_leaves_an_in_memory_capture_unchanged():
     params = SynthParams(ebn0_db=12.0, symbols_per_burst=1500, seed=17)
     x = (synthesize(params).samples + (0.01 - 0.02j)).astype(np.complex64)
 
-    class _Cap:
-        path = "mem"
-        data_path = "mem"
-        kind = "iq"
-        sample_rate_hz = FS
-        centre_hz = None
-        datatype = "cf32_le"
-        n_samples = len(x)
-
-        @staticmethod
-        def read(a, n):
-            return x[a:a + n]
+    cap = ArrayCapture(x, FS)
+    assert cap.samples is x          # the test must watch the very buffer the pipeline reads
 
     before = hashlib.sha256(x.tobytes()).hexdigest()
-    out = pipeline.analyze_capture(_Cap(), pipeline.AnalysisOptions((-2500.0, 2500.0), RS))
+    out = pipeline.analyze_capture(cap, pipeline.AnalysisOptions((-2500.0, 2500.0), RS))
     assert hashlib.sha256(x.tobytes()).hexdigest() == before
     # and the DC offset was measured (generator: 0.01 - 0.02j): the bursts' own mean adds about
     # A / sqrt(symbols) = 0.25 / sqrt(1500) = 0.0065 of full scale (random phase per symbol), so 0.01
