@@ -42,10 +42,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import signal
 
-from .branches import SymbolGrid, correlate, symbol_grid, window_energy
+from .branches import SymbolGrid, correlate, sliding_sums, symbol_grid, window_energy
 
 __all__ = [
-    "PowerTrace", "BurstSpan", "band_power_frames", "find_bursts", "coarse_tones",
+    "PowerTrace", "BurstSpan", "band_power_frames", "find_bursts",
     "symbol_energy_trace", "estimate_symbol_timing", "trim_to_burst", "refine_tones",
     "segment_symbols",
 ]
@@ -355,49 +355,6 @@ def _parabolic_peak(y: np.ndarray, i: int) -> float:
     return float(i + 0.5 * (a - c) / den)
 
 
-def averaged_periodogram(rows: np.ndarray, sample_rate_hz: float, pad: int = 16):
-    """Sum over rows of the zero-padded periodogram, frequencies fftshifted.
-
-    Returns ``(freqs_hz, power)``; ``rows`` has one symbol (or segment) per row.
-    """
-    nfft = int(2 ** np.ceil(np.log2(rows.shape[1] * pad)))
-    spec = np.fft.fft(rows, n=nfft, axis=1)
-    power = np.sum(np.abs(spec) ** 2, axis=0)
-    freqs = np.fft.fftfreq(nfft, 1.0 / sample_rate_hz)
-    order = np.argsort(freqs)
-    return freqs[order], power[order]
-
-
-def _peak_near(freqs: np.ndarray, power: np.ndarray, centre: float, half_width: float) -> float:
-    sel = np.flatnonzero(np.abs(freqs - centre) <= half_width)
-    if sel.size == 0:
-        return float(centre)
-    i = sel[np.argmax(power[sel])]
-    fi = _parabolic_peak(np.log(power + 1e-300), int(i))
-    step = freqs[1] - freqs[0]
-    return float(freqs[0] + fi * step)
-
-
-def coarse_tones(x: np.ndarray, sample_rate_hz: float, samples_per_symbol: float,
-                 hints_hz: tuple[float, float]) -> tuple[float, float]:
-    """First tone estimates: peaks of the averaged periodogram near the hints.
-
-    The search around each hint spans +-0.45 of the smaller of the hinted
-    spacing and the symbol rate, so the two searches never overlap.
-    """
-    # Segments of four symbols: one-symbol segments smear the two lobes into
-    # one hump when the spacing is ~R_s; the final estimate is decision-directed.
-    L = int(np.floor(4 * samples_per_symbol))
-    n_seg = len(x) // L
-    if n_seg < 1:
-        return (float(hints_hz[0]), float(hints_hz[1]))
-    rows = x[:n_seg * L].reshape(n_seg, L)
-    freqs, power = averaged_periodogram(rows, sample_rate_hz, pad=8)
-    rs = sample_rate_hz / samples_per_symbol
-    half = 0.45 * min(abs(hints_hz[1] - hints_hz[0]), rs)
-    return (_peak_near(freqs, power, hints_hz[0], half), _peak_near(freqs, power, hints_hz[1], half))
-
-
 def lag_products(rows: np.ndarray) -> np.ndarray:
     """``R[l] = sum_k sum_m r[k, m + l] conj(r[k, m])`` for lags ``l = 0 .. L-1``.
 
@@ -492,18 +449,11 @@ def refine_tones(rows: np.ndarray, decisions: np.ndarray, sample_rate_hz: float,
 def symbol_energy_trace(x: np.ndarray, sample_rate_hz: float, tones_hz, window: int) -> np.ndarray:
     """``e[n] = |z0(n)|^2 + |z1(n)|^2`` for a one-symbol window starting at each sample n.
 
-    Sliding sums via cumulative sums (O(N)); ``len(e) = len(x) - window + 1``.
+    ``len(e) = len(x) - window + 1``; see :func:`analyzer.branches.window_energy`.
     """
-    n = np.arange(len(x))
-    e = np.zeros(max(len(x) - window + 1, 0))
-    if e.size == 0:
-        return e
-    for f in tones_hz:
-        y = x * np.exp(-2j * np.pi * f * n / sample_rate_hz)
-        c = np.concatenate(([0.0], np.cumsum(y)))
-        s = c[window:] - c[:-window]
-        e += np.abs(s) ** 2 / window
-    return e
+    if len(x) < window:
+        return np.zeros(0)
+    return window_energy(x, 0, 0, len(x) - window + 1, window, tones_hz, sample_rate_hz)
 
 
 @dataclass(frozen=True)
@@ -641,11 +591,6 @@ def grid_for_span(phase_sample: float, symbol_rate_hz: float, sample_rate_hz: fl
     return symbol_grid(first, sps, max(n, 0))
 
 
-def branches_on_grid(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float):
-    """Correlator outputs on ``grid`` (thin wrapper kept for the pipeline's readability)."""
-    return correlate(x, x_start, grid, tones_hz, sample_rate_hz)
-
-
 def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
                   blocks: int = 4, span: float | None = None, step: float | None = None) -> SymbolGrid:
     """Refine the symbol grid by maximising the correlator energy block by block.
@@ -713,21 +658,6 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
 # --------------------------------------------------------------------------- blind acquisition
 SPECTROGRAM_NFFT = 1024
 SPECTROGRAM_CELLS = 128
-
-
-def spectrogram_cells(x: np.ndarray, nfft: int = SPECTROGRAM_NFFT, cells: int = SPECTROGRAM_CELLS) -> np.ndarray:
-    """Power spectrogram of whole ``nfft``-sample frames, summed into ``cells`` frequency cells.
-
-    Returns an array (n_frames, cells) of mean power per cell, fftshifted
-    (cell 0 = most negative frequency); a Hann window is used.
-    """
-    n = len(x) // nfft
-    if n == 0:
-        return np.empty((0, cells))
-    w = np.hanning(nfft)
-    spec = np.abs(np.fft.fft(x[:n * nfft].reshape(n, nfft) * w, axis=1)) ** 2 / np.sum(w ** 2)
-    spec = np.fft.fftshift(spec, axes=1)
-    return spec.reshape(n, cells, nfft // cells).mean(axis=2)
 
 
 def cell_edges_hz(sample_rate_hz: float, cells: int = SPECTROGRAM_CELLS) -> np.ndarray:
@@ -881,6 +811,13 @@ def blind_tones(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, floa
     return (float(a), float(b))
 
 
+def _tone_difference(x: np.ndarray, sample_rate_hz: float, tones_hz, m: int) -> np.ndarray:
+    """``d[n] = |S1(n)|^2 - |S0(n)|^2`` over windows of ``m`` samples (see branches.sliding_sums)."""
+    s = sliding_sums(x, tones_hz, sample_rate_hz, m)
+    p = s.real ** 2 + s.imag ** 2
+    return p[1] - p[0]
+
+
 def tone_transitions(x: np.ndarray, sample_rate_hz: float, tones_hz) -> tuple[np.ndarray, int]:
     """Sample indices (relative to ``x``) where the sent tone changes, and the window used.
 
@@ -898,12 +835,7 @@ def tone_transitions(x: np.ndarray, sample_rate_hz: float, tones_hz) -> tuple[np
     m = int(max(1, round(0.5 * sample_rate_hz / spacing)))
     if len(x) < 16 * m:
         return np.empty(0, np.int64), m
-    n = np.arange(len(x))
-    d = np.zeros(len(x) - m + 1)
-    for sgn, f in ((-1.0, tones_hz[0]), (1.0, tones_hz[1])):
-        y = x * np.exp(-2j * np.pi * f * n / sample_rate_hz)
-        c = np.concatenate(([0.0], np.cumsum(y)))
-        d += sgn * np.abs(c[m:] - c[:-m]) ** 2
+    d = _tone_difference(x, sample_rate_hz, tones_hz, m)
     h = 0.6 * np.median(np.abs(d))
     state = np.where(d > h, 1, np.where(d < -h, -1, 0))
     nz = np.flatnonzero(state)
@@ -955,7 +887,7 @@ def blind_rate_candidates(x: np.ndarray, sample_rate_hz: float, tones_hz, n_peak
     return out
 
 
-def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz, band_hz=None) -> float | None:
+def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz) -> float | None:
     """Symbol rate with no hint: the line of the tone-transition instants.
 
     The instants from :func:`tone_transitions` lie on multiples of the symbol
@@ -1112,12 +1044,7 @@ def _transition_timing_once(x: np.ndarray, x_start: int, grid: SymbolGrid, tones
         lo = int(n0.min()) - x_start
         hi = int(n0.max()) + 2 * w + m + 1 - x_start
     seg = x[lo:hi]
-    nn = np.arange(lo, hi) + x_start
-    d = np.zeros(len(seg) - m + 1)
-    for sgn, f in ((-1.0, tones_hz[0]), (1.0, tones_hz[1])):
-        y = seg * np.exp(-2j * np.pi * f * nn / sample_rate_hz)
-        c = np.concatenate(([0.0], np.cumsum(y)))
-        d += sgn * np.abs(c[m:] - c[:-m]) ** 2
+    d = _tone_difference(seg, sample_rate_hz, tones_hz, m)
     idx = (n0 - x_start - lo)[:, None] + np.arange(2 * w + 1)[None, :]
     v = d[idx] * np.where(b[k] == 1, 1.0, -1.0)[:, None]         # step upwards at the boundary
     v = v - np.median(v, axis=1, keepdims=True)

@@ -170,7 +170,7 @@ def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_ra
 
 
 def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: int, tones_hz,
-                  sample_rate_hz: float, chunk: int = 1 << 13) -> np.ndarray:
+                  sample_rate_hz: float) -> np.ndarray:
     """Total correlator energy ``|z0|^2 + |z1|^2`` of a window starting at every sample.
 
     Parameters
@@ -187,9 +187,6 @@ def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: in
         Template frequencies (Hz).
     sample_rate_hz : float
         Sample rate.
-    chunk : int
-        Window starts per vectorised step.
-
     Returns
     -------
     numpy.ndarray
@@ -198,19 +195,27 @@ def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: in
         phase rotation it applies has unit magnitude), computed once for
         every start so that many shifted grids can share it.
     """
-    f = np.asarray(tones_hz, dtype=float)
-    m = np.arange(window)
-    base = np.exp(-2j * np.pi * np.outer(m, f) / sample_rate_hz) / np.sqrt(window)
     lo, hi = first - x_start, stop - x_start
     if lo < 0 or hi + window - 1 > len(x):
         raise ValueError("windows run outside the samples given")
-    view = np.lib.stride_tricks.sliding_window_view(x[lo:hi + window - 1], window)
-    e = np.empty(hi - lo)
-    for a in range(0, hi - lo, chunk):
-        b = min(a + chunk, hi - lo)
-        acc = np.ascontiguousarray(view[a:b]) @ base
-        e[a:b] = acc.real[:, 0] ** 2 + acc.imag[:, 0] ** 2 + acc.real[:, 1] ** 2 + acc.imag[:, 1] ** 2
-    return e
+    s = sliding_sums(x[lo:hi + window - 1], tones_hz, sample_rate_hz, window)
+    return np.sum(s.real ** 2 + s.imag ** 2, axis=0) / window
+
+
+def sliding_sums(x: np.ndarray, tones_hz, sample_rate_hz: float, window: int) -> np.ndarray:
+    """``S_i[n] = sum_{m<window} x[n+m] exp(-j 2 pi f_i (n+m) / fs)`` for each tone, every start n.
+
+    Running sums of the mixed-down samples (O(N) per tone).  The phase is
+    referred to ``x[0]``; magnitudes do not depend on that.  Shape
+    ``(n_tones, len(x) - window + 1)``.
+    """
+    f = np.atleast_1d(np.asarray(tones_hz, dtype=float))
+    n = np.arange(len(x))
+    out = np.empty((f.size, max(len(x) - window + 1, 0)), dtype=complex)
+    for i, fi in enumerate(f):
+        c = np.concatenate(([0.0], np.cumsum(x * np.exp(-2j * np.pi * fi * n / sample_rate_hz))))
+        out[i] = c[window:] - c[:-window]
+    return out
 
 
 def template_correlation(tones_hz, sample_rate_hz: float, window: int) -> complex:

@@ -716,7 +716,7 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
     rs = opts.symbol_rate_hz
     quality = float("inf")
     if rs is None:
-        rs = acquire.blind_symbol_rate(x, fs, tones, band)
+        rs = acquire.blind_symbol_rate(x, fs, tones)
         if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
             warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
                  "give --baud to analyse it")
