@@ -879,11 +879,13 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
         region_total = max(sum(b - a for a, b in regions), 1)
         region_done = 0
         bursts: list[BurstResult] = []
-        starts = []
-        for a, b in regions:
-            x = read(a, b - a).astype(np.complex128)
-            starts.append(_starting_point(x, fs, band, opts, cap.path, a))
-        starts = _common_rate(starts)
+        if opts.tones_hz is not None and opts.symbol_rate_hz is not None:
+            # hints give every region its starting point: no need to read the regions twice
+            starts = [(tuple(opts.tones_hz), float(opts.symbol_rate_hz), float("inf"))] * len(regions)
+        else:
+            starts = [_starting_point(read(a, b - a).astype(np.complex128), fs, band, opts, cap.path, a)
+                      for a, b in regions]
+            starts = _common_rate(starts)
         # the noise floor where each region lies (it may drift along the capture)
         track = acquire.floor_track(trace, floor) * frame / max(bins, 1)
         for (a, b), start in zip(regions, starts):
