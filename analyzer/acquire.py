@@ -570,7 +570,6 @@ def trim_to_burst(energies: np.ndarray, noise_level: float, signal_level: float 
     theta = 0.5 * (noise_level + signal_level)
     prefix = np.concatenate(([0.0], np.cumsum(e - theta)))
     run_min = np.minimum.accumulate(prefix)
-    arg_min = np.zeros(len(prefix), dtype=np.int64)
     # index of the running minimum for each end point
     is_new_min = prefix <= run_min
     idx = np.where(is_new_min, np.arange(len(prefix)), 0)
