@@ -10,6 +10,11 @@ def _f(v, d=2, unit=""):
     return "–" if v is None else (f"{v:.{d}f} {unit}".strip())
 
 
+def _g(v):
+    """Fixed point for ordinary values, scientific for small ones (a BER), as in the HTML."""
+    return "–" if v is None else (_e(v) if v != 0 and abs(v) < 0.01 else _f(v, 3))
+
+
 def _e(v):
     return "–" if v is None else ("0" if v == 0 else f"{v:.2e}")
 
@@ -58,7 +63,7 @@ def print_summary(report: dict, console: Console | None = None, written: list[st
     for c in report.get("checks", []):
         mark = "pass" if c["pass"] else "FAIL"
         marg = " (marginal)" if c.get("marginal") else ""
-        con.print(f"  {mark:4}{marg}  {c['name']}: {_f(c['measured'], 3)} (limit {_f(c['limit'], 3)}) {c['unit']}"
+        con.print(f"  {mark:4}{marg}  {c['name']}: {_g(c['measured'])} (limit {_g(c['limit'])}) {c['unit']}"
                   + (f"  - {c['note']}" if c.get("note") else ""), markup=False)
     for w in report.get("warnings", []):
         con.print(f"[yellow]warning:[/yellow] {w}")
