@@ -39,11 +39,11 @@ _HINT = "see the spec file format in analyzer/spec.py"
 LIMIT_UNITS = {
     "tone_error_hz": "Hz",
     "symbol_rate_error_ppm": "ppm",
-    "max_ber": "errors per bit",
+    "max_ber": "per bit",
     "max_implementation_loss_db": "dB",
     "min_ebn0_db": "dB",
     "max_tone_imbalance_db": "dB",
-    "max_tone_correlation": "|rho| (0..1)",
+    "max_tone_correlation": "|rho|",
 }
 
 
