@@ -17,7 +17,31 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["SymbolGrid", "BranchOutputs", "symbol_grid", "correlate", "window_energy", "template_correlation"]
+__all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscillator", "correlate",
+           "window_energy", "energy_trace", "sliding_sums", "template_correlation"]
+
+#: Block length of :func:`oscillator` (a power of two).
+_OSC_BLOCK = 256
+
+
+def oscillator(freq_hz: float, sample_rate_hz: float, first: int, count: int) -> np.ndarray:
+    """``exp(-j 2 pi f n / fs)`` for ``n = first .. first + count - 1``.
+
+    Formed as the outer product of a coarse phasor (one per block of
+    :data:`_OSC_BLOCK` samples) and a fine one (within the block), so each
+    sample costs one complex multiply instead of a complex exponential; the
+    phase is reduced modulo one cycle first, so the error is that of the
+    float64 phase itself (about 1e-16 of the cycle count ``f n / fs``).
+    """
+    count = int(count)
+    if count <= 0:
+        return np.empty(0, complex)
+    cyc = float(freq_hz) / float(sample_rate_hz)
+    nb = -(-count // _OSC_BLOCK)
+    coarse_cycles = np.mod(cyc * (int(first) + _OSC_BLOCK * np.arange(nb, dtype=np.float64)), 1.0)
+    coarse = np.exp(-2j * np.pi * coarse_cycles)
+    fine = np.exp(-2j * np.pi * np.mod(cyc * np.arange(_OSC_BLOCK), 1.0))
+    return (coarse[:, None] * fine[None, :]).ravel()[:count]
 
 
 @dataclass(frozen=True)
@@ -199,7 +223,50 @@ def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: in
     if lo < 0 or hi + window - 1 > len(x):
         raise ValueError("windows run outside the samples given")
     s = sliding_sums(x[lo:hi + window - 1], tones_hz, sample_rate_hz, window)
-    return np.sum(s.real ** 2 + s.imag ** 2, axis=0) / window
+    e = np.zeros(s.shape[1])
+    for row in s:                 # |S|^2 summed over the tones, without a temporary per tone
+        e += row.real ** 2
+        e += row.imag ** 2
+    return e / window
+
+
+@dataclass(frozen=True)
+class EnergyTrace:
+    """Correlator energy ``|z0|^2 + |z1|^2`` of a window starting at every sample of a stretch.
+
+    Timing searches try many shifted grids on the same samples; each picks its
+    symbols' energies from one trace instead of correlating again.
+
+    Attributes
+    ----------
+    first : int
+        Capture index of the first window start.
+    window : int
+        Samples per window.
+    tones_hz : tuple of float
+        Template frequencies the trace was made with.
+    values : numpy.ndarray
+        ``values[n - first]``: energy of the window starting at capture sample n.
+    """
+
+    first: int
+    window: int
+    tones_hz: tuple[float, float]
+    values: np.ndarray
+
+    def between(self, lo: int, hi: int) -> np.ndarray | None:
+        """Energies of the windows starting at ``lo .. hi - 1``, or None if not all covered."""
+        a, b = int(lo) - self.first, int(hi) - self.first
+        if a < 0 or b > len(self.values) or b < a:
+            return None
+        return self.values[a:b]
+
+
+def energy_trace(x: np.ndarray, x_start: int, window: int, tones_hz, sample_rate_hz: float) -> EnergyTrace:
+    """The :class:`EnergyTrace` of every window that fits in ``x`` (see :func:`window_energy`)."""
+    n = max(len(x) - window + 1, 0)
+    values = window_energy(x, x_start, x_start, x_start + n, window, tones_hz, sample_rate_hz) if n else np.zeros(0)
+    return EnergyTrace(int(x_start), int(window), (float(tones_hz[0]), float(tones_hz[1])), values)
 
 
 def sliding_sums(x: np.ndarray, tones_hz, sample_rate_hz: float, window: int) -> np.ndarray:
@@ -210,10 +277,11 @@ def sliding_sums(x: np.ndarray, tones_hz, sample_rate_hz: float, window: int) ->
     ``(n_tones, len(x) - window + 1)``.
     """
     f = np.atleast_1d(np.asarray(tones_hz, dtype=float))
-    n = np.arange(len(x))
     out = np.empty((f.size, max(len(x) - window + 1, 0)), dtype=complex)
+    if out.shape[1] == 0:
+        return out
     for i, fi in enumerate(f):
-        c = np.concatenate(([0.0], np.cumsum(x * np.exp(-2j * np.pi * fi * n / sample_rate_hz))))
+        c = np.concatenate(([0.0], np.cumsum(x * oscillator(fi, sample_rate_hz, 0, len(x)))))
         out[i] = c[window:] - c[:-window]
     return out
 
