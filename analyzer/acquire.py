@@ -83,18 +83,41 @@ def frame_length(sample_rate_hz: float, symbol_rate_hz: float) -> int:
     return int(2 ** np.ceil(np.log2(max(8.0, 2.0 * sps))))
 
 
+#: The out-of-band bins of a trace frame are split into at most this many
+#: groups of neighbouring bins; the noise estimate is the median of the
+#: groups' mean powers, so an interferer in a few groups does not lift it.
+NOISE_GROUPS = 8
+
+
+def _segment_weights(frame: int, parts) -> tuple[np.ndarray, np.ndarray]:
+    """Cut the bins ``0 .. frame-1`` where any of ``parts`` (boolean masks) starts or ends.
+
+    Returns the segment starts (for ``numpy.add.reduceat``) and a
+    (segments, parts) matrix of 0/1 saying which part each segment belongs
+    to, so one reduction and one small product give every part's sum.
+    """
+    cuts = {0}
+    for m in parts:
+        d = np.diff(np.concatenate(([0], m.astype(np.int8), [0])))
+        cuts.update(np.flatnonzero(d != 0).tolist())
+    starts = np.array(sorted(c for c in cuts if c < frame), dtype=np.intp)
+    weights = np.array([[float(m[a]) for m in parts] for a in starts])
+    return starts, weights
+
+
 def _band_masks(sample_rate_hz: float, band_hz, frame: int, noise_bands_hz):
     freqs = np.fft.fftfreq(frame, 1.0 / sample_rate_hz)
     inband = (freqs >= band_hz[0]) & (freqs <= band_hz[1])
     noise = np.zeros(frame, bool)
     for lo, hi in noise_bands_hz:
         noise |= (freqs >= lo) & (freqs <= hi)
+    noise[0] = False          # the DC bin: a DC offset is not noise (and is removed only later)
     return inband, noise & ~inband
 
 
 def band_power_frames(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float],
-                      frame: int, noise_bands_hz=()) -> tuple[np.ndarray, np.ndarray]:
-    """In-band power, and the out-of-band noise estimate, of each whole frame of ``x``.
+                      frame: int, noise_bands_hz=()) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """In-band power, the out-of-band noise estimate and the DC bin of each whole frame of ``x``.
 
     Parameters
     ----------
@@ -109,27 +132,63 @@ def band_power_frames(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float
         Frame length.
     noise_bands_hz : sequence of (float, float)
         Where noise alone is expected (outside ``band_hz``); empty for none.
-
     Returns
     -------
     power : numpy.ndarray
         Mean power per frame of the in-band part of the signal.
     noise : numpy.ndarray
-        Median out-of-band bin power times the in-band bin count, corrected
-        from median to mean (a bin of complex Gaussian noise is exponential:
-        mean = median / ln 2).
+        The in-band power a noise-only frame would have if the noise is
+        white: the out-of-band bins (the DC bin excluded) are split into up to
+        :data:`NOISE_GROUPS` groups of neighbours, and the median of the
+        groups' mean bin powers, corrected from median to mean (a mean of
+        ``k`` bins of complex Gaussian noise is Gamma(k, 1/k), whose median
+        is ``gammaincinv(k, 1/2) / k``; ln 2 for one bin), is scaled to the
+        in-band bin count.  NaN with fewer than four such bins.
+    dc_bin : numpy.ndarray
+        The complex DFT of each frame at 0 Hz, so that a DC offset known only
+        later can be removed from ``power`` exactly (:func:`remove_dc`).
     """
+    from scipy.fft import fft
+    from scipy.special import gammaincinv
+
     n_frames = len(x) // frame
     if n_frames == 0:
-        return np.empty(0), np.empty(0)
-    spec = np.abs(np.fft.fft(x[:n_frames * frame].reshape(n_frames, frame), axis=1)) ** 2
+        return np.empty(0), np.empty(0), np.empty(0, complex)
+    xf = fft(np.asarray(x[:n_frames * frame]).reshape(n_frames, frame), axis=1)
+    spec = xf.real ** 2 + xf.imag ** 2
     inband, noise = _band_masks(sample_rate_hz, band_hz, frame, noise_bands_hz)
-    power = np.sum(spec[:, inband], axis=1) / frame**2
-    if np.count_nonzero(noise) >= 4:
-        nd = np.median(spec[:, noise], axis=1) / np.log(2.0) * np.count_nonzero(inband) / frame**2
+    n_noise = int(np.count_nonzero(noise))
+    groups = np.array_split(np.flatnonzero(noise), int(min(NOISE_GROUPS, n_noise // 4))) if n_noise >= 4 else []
+    parts = [inband] + [np.isin(np.arange(frame), g) for g in groups]
+    starts, weights = _segment_weights(frame, parts)
+    sums = np.add.reduceat(spec, starts, axis=1).astype(np.float64) @ weights     # (frames, 1 + groups)
+    power = sums[:, 0] / frame**2
+    if groups:
+        means = np.sort(sums[:, 1:] / np.array([g.size for g in groups]), axis=1)
+        g = len(groups)
+        med = 0.5 * (means[:, (g - 1) // 2] + means[:, g // 2])
+        # a mean of k exponential bins is Gamma(k, 1/k): its median is gammaincinv(k, 1/2) / k of the mean
+        k = n_noise / g
+        nd = med * (k / gammaincinv(k, 0.5)) * np.count_nonzero(inband) / frame**2
     else:
         nd = np.full(n_frames, np.nan)
-    return power, nd
+    return power, nd, xf[:, 0].astype(np.complex128)
+
+
+def remove_dc(power: np.ndarray, dc_bin: np.ndarray, dc: complex, sample_rate_hz: float,
+              band_hz: tuple[float, float], frame: int) -> np.ndarray:
+    """The in-band power of :func:`band_power_frames` had ``dc`` been subtracted from every sample.
+
+    A constant ``d`` adds ``d * frame`` to a rectangular frame's DFT at 0 Hz
+    and nothing elsewhere, so only frames whose band holds 0 Hz change, by
+    ``(|X0 - d frame|^2 - |X0|^2) / frame^2``.
+    """
+    inband, _ = _band_masks(sample_rate_hz, band_hz, frame, ())
+    if dc == 0 or not inband[0] or len(power) == 0:
+        return power
+    x0 = np.asarray(dc_bin)
+    shifted = x0 - complex(dc) * frame
+    return power + ((shifted.real ** 2 + shifted.imag ** 2) - (x0.real ** 2 + x0.imag ** 2)) / frame**2
 
 
 def band_bins(sample_rate_hz: float, band_hz: tuple[float, float], frame: int) -> int:

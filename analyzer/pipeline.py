@@ -13,7 +13,7 @@ from typing import Callable
 
 import numpy as np
 
-from . import acquire, branches, decide, diagnostics, estimate, prbs, theory
+from . import acquire, branches, decide, diagnostics, estimate, prbs, survey, theory
 from .capture import Capture, open_capture
 from .errors import CaptureWarning, InputError, warn
 from .heap import keep_freed_memory
@@ -27,8 +27,8 @@ MIN_SYMBOLS = 16             # shortest burst analysed
 #: not depend on it: every sum is formed per quantum, frames never straddle a
 #: block, and the per-quantum sums are added up in one go at the end.
 BLOCK_SAMPLES = 1 << 20
-#: Samples per partial sum (a power of two, at least the spectrogram frame).
-QUANTUM = 1 << 12
+#: Samples per partial sum (see :mod:`analyzer.survey`).
+QUANTUM = survey.QUANTUM
 #: Longest stretch of the capture read at once for burst analysis.  A region
 #: of the power trace longer than this is analysed in consecutive pieces of at
 #: most this many samples, cut where the trace is quietest (and, inside one
@@ -191,90 +191,6 @@ def _noise_bands(cap: Capture, band: tuple[float, float], guard: float) -> list[
     return out
 
 
-@dataclass(frozen=True)
-class _Scan:
-    """What one pass over the raw samples found."""
-
-    mean: complex
-    power: float          # mean |x|^2
-    clipped: int
-    any_signal: bool      # some sample is not zero
-
-
-def _block_size(block: int | None, *frames: int) -> int:
-    """Read block: at least ``block`` samples, a whole multiple of QUANTUM and of each frame."""
-    unit = max((QUANTUM,) + tuple(int(f) for f in frames))
-    want = max(int(block or BLOCK_SAMPLES), unit)
-    return -(-want // unit) * unit
-
-
-def _first_bad(x: np.ndarray, pos: int, path) -> None:
-    finite = np.isfinite(x)
-    if not np.all(finite):
-        bad = pos + int(np.flatnonzero(~finite)[0])
-        raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", path,
-                         "the recording is corrupt; trim or re-record it")
-
-
-def _quantum_sums(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Sum and energy of each QUANTUM of ``x`` (the last one may be short)."""
-    full = len(x) // QUANTUM * QUANTUM
-    parts = [x[:full].reshape(-1, QUANTUM)] if full else []
-    sums = [np.sum(q, axis=1, dtype=np.complex128) for q in parts]
-    v = x.view(np.float32) if x.dtype == np.complex64 else x.astype(np.complex64).view(np.float32)
-    vq = v[:2 * full].reshape(-1, 2 * QUANTUM)
-    energy = [np.einsum("ij,ij->i", vq, vq, dtype=np.float64)] if full else []
-    if full < len(x):
-        sums.append(np.array([np.sum(x[full:], dtype=np.complex128)]))
-        t = v[2 * full:].astype(np.float64)
-        energy.append(np.array([np.dot(t, t)]))
-    return (np.concatenate(sums) if sums else np.empty(0, complex),
-            np.concatenate(energy) if energy else np.empty(0))
-
-
-def _blocks(read, n_samples: int, block: int, progress=None, stage: str = ""):
-    """Yield ``(position, samples)`` over the whole capture, ``block`` samples at a time,
-    reporting progress after each block."""
-    pos = 0
-    while pos < n_samples:
-        x = read(pos, block)
-        if len(x) == 0:
-            break
-        yield pos, x
-        pos += len(x)
-        if progress:
-            progress(pos, n_samples, stage)
-
-
-def _scan(cap: Capture, block: int, progress=None, stage: str = "checking samples") -> _Scan:
-    """First pass: first non-finite sample, mean (DC offset), power and clipped samples.
-
-    Sums are formed per :data:`QUANTUM` samples and added at the end, so the
-    result is the same for any block size.
-    """
-    level = getattr(cap, "clip_level", None)
-    sums, energies = [], []
-    clipped = 0
-    pos = 0
-    for start, x in _blocks(cap.read, cap.n_samples, block, progress, stage):
-        pos = start + len(x)
-        sm, en = _quantum_sums(x)
-        if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
-            _first_bad(x, start, cap.path)
-        sums.append(sm)
-        energies.append(en)
-        if level is not None:
-            over = np.abs(x.real) >= level
-            if cap.kind != "audio":          # audio: the imaginary part is computed, not stored
-                over |= np.abs(x.imag) >= level
-            clipped += int(np.count_nonzero(over))
-    n = max(pos, 1)
-    sm = np.concatenate(sums) if sums else np.zeros(1, complex)
-    en = np.concatenate(energies) if energies else np.zeros(1)
-    total_e = float(np.sum(en))
-    return _Scan(mean=complex(np.sum(sm)) / n, power=total_e / n, clipped=clipped, any_signal=total_e > 0)
-
-
 def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
     """``read(start, count)`` on the capture with the DC offset removed."""
     if dc == 0:
@@ -288,91 +204,6 @@ def _reader(cap: Capture, dc: complex) -> Callable[[int, int], np.ndarray]:
     return read
 
 
-@dataclass(frozen=True)
-class _TraceSpec:
-    """What the power trace needs: band, frame and noise bands."""
-
-    band: tuple[float, float]
-    frame: int
-    noise_bands: list
-
-
-@dataclass
-class _Spectra:
-    """What the spectral passes collect."""
-
-    spectrogram: np.ndarray
-    freqs: np.ndarray
-    psd: np.ndarray
-    power: np.ndarray | None = None
-    noise: np.ndarray | None = None
-
-
-def _hann32(n: int) -> np.ndarray:
-    return np.hanning(n).astype(np.float32)
-
-
-def _spectra_pass(cap: Capture, read, block: int, nfft_psd: int, trace: _TraceSpec | None,
-                  progress=None, stage: str = "spectrum") -> _Spectra:
-    """One pass: spectrogram cells, averaged spectrum and (when ``trace``) the band-power trace.
-
-    The spectrogram frame (:data:`acquire.SPECTROGRAM_NFFT` samples, Hann
-    window) and the averaged spectrum share one FFT per frame when the capture
-    is long enough for that frame (the spectrum is the mean of the frames'
-    periodograms); shorter captures get a shorter spectrum frame.
-    """
-    import scipy.fft
-
-    nfft = acquire.SPECTROGRAM_NFFT
-    cells = acquire.SPECTROGRAM_CELLS
-    w = _hann32(nfft)
-    w2 = float(np.sum(np.hanning(nfft) ** 2))
-    shared = nfft_psd == nfft
-    wp = w if shared else _hann32(nfft_psd)
-    sg_parts, powers, noises = [], [], []
-    psd = np.zeros(nfft_psd)
-    n_psd = 0
-    for _, x in _blocks(read, cap.n_samples, block, progress, stage):
-        m = len(x) // nfft
-        if m:
-            spec = np.abs(scipy.fft.fft(x[:m * nfft].reshape(m, nfft) * w, axis=1)) ** 2
-            if shared:
-                psd += np.sum(spec, axis=0, dtype=np.float64)
-                n_psd += m
-            spec = np.fft.fftshift(spec, axes=1) / np.float32(w2)
-            sg_parts.append(spec.reshape(m, cells, nfft // cells).mean(axis=2, dtype=np.float32))
-        if not shared:
-            mp = len(x) // nfft_psd
-            if mp:
-                seg = x[:mp * nfft_psd].reshape(mp, nfft_psd) * wp
-                psd += np.sum(np.abs(scipy.fft.fft(seg, axis=1)) ** 2, axis=0, dtype=np.float64)
-                n_psd += mp
-        if trace is not None:
-            p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, trace.band, trace.frame, trace.noise_bands)
-            powers.append(p)
-            noises.append(nd)
-    if n_psd:
-        psd /= n_psd * float(np.sum(np.hanning(nfft_psd) ** 2))
-    freqs = np.fft.fftshift(np.fft.fftfreq(nfft_psd, 1.0 / cap.sample_rate_hz))
-    sg = np.concatenate(sg_parts) if sg_parts else np.empty((0, cells), np.float32)
-    out = _Spectra(spectrogram=sg, freqs=freqs, psd=np.fft.fftshift(psd))
-    if trace is not None:
-        out.power = np.concatenate(powers) if powers else np.empty(0)
-        out.noise = np.concatenate(noises) if noises else np.empty(0)
-    return out
-
-
-def _power_trace(cap: Capture, read, block: int, trace: _TraceSpec, progress=None, stage: str = "power trace"):
-    """One pass over the capture: the in-band power trace and out-of-band noise estimate."""
-    powers, noises = [], []
-    for _, x in _blocks(read, cap.n_samples, block, progress, stage):
-        p, nd = acquire.band_power_frames(x, cap.sample_rate_hz, trace.band, trace.frame, trace.noise_bands)
-        powers.append(p)
-        noises.append(nd)
-    return (np.concatenate(powers) if powers else np.empty(0),
-            np.concatenate(noises) if noises else np.empty(0))
-
-
 def _trace_frame(cap: Capture, band: tuple[float, float], rs: float | None) -> tuple[int, list]:
     """Power-trace frame and noise bands for ``band`` (frame from the symbol rate when known)."""
     fs = cap.sample_rate_hz
@@ -384,6 +215,10 @@ def _trace_frame(cap: Capture, band: tuple[float, float], rs: float | None) -> t
         frame = int(2 ** np.ceil(np.log2(max(16.0, 16.0 * fs / bw))))
         guard_hz = 0.25 * bw
     return frame, _noise_bands(cap, band, guard_hz)
+
+
+def _block_size(block: int | None, *frames: int) -> int:
+    return survey.block_size(block, BLOCK_SAMPLES, *frames)
 
 
 def _split_region(a: int, b: int, power: np.ndarray, frame: int, limit: int) -> list[tuple[int, int]]:
@@ -831,9 +666,10 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     keep_freed_memory()
     fs = cap.sample_rate_hz
     nfft_psd = int(min(acquire.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
-    # the passes: scan, spectra (+ power trace when the band is known from the hints),
-    # power trace (blind only), then the bursts; progress counts samples over all of them
-    n_passes = 3 if opts.tones_hz is not None else 4
+    # the passes: the survey (checks, DC, spectra, and the power trace when the band is
+    # known from the hints), the power trace (blind only), then the bursts; progress
+    # counts samples over all of them
+    n_passes = 2 if opts.tones_hz is not None else 3
     done = {"pass": 0}
 
     def stage_progress(name: str):
@@ -850,7 +686,20 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
-        scan = _scan(cap, _block_size(block), stage_progress("checking samples"), "checking samples")
+        rs = opts.symbol_rate_hz
+        known: survey.TraceSpec | None = None
+        if opts.tones_hz is not None:
+            # the band to watch is known from the hints: one pass gives spectra and power trace
+            f0, f1 = opts.tones_hz
+            guard = rs if rs is not None else f1 - f0
+            band = (f0 - guard, f1 + guard)
+            known = survey.TraceSpec(band, *_trace_frame(cap, band, rs))
+        blk = _block_size(block, nfft_psd, acquire.SPECTROGRAM_NFFT, known.frame if known else 1)
+        stage = "spectrum and power" if known else "spectrum"
+        scan = survey.survey(cap.read, cap.n_samples, fs, blk, nfft_psd, kind=cap.kind,
+                             clip_level=getattr(cap, "clip_level", None), path=cap.path, trace=known,
+                             stride=survey.spectrogram_stride(cap.n_samples, every_frame=known is None),
+                             progress=stage_progress(stage), stage=stage)
         if cap.n_samples == 0 or not scan.any_signal:
             raise InputError("the capture holds no signal (all samples are zero)", cap.path,
                              "check the recording chain")
@@ -862,18 +711,7 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                      f"limit (|I| or |Q| >= {cap.clip_level:.4g} of full scale): the capture is clipped, so "
                      "tone energies and Eb/N0 are biased; lower the receiver gain")
         read = _reader(cap, scan.mean)
-        rs = opts.symbol_rate_hz
-        known: _TraceSpec | None = None
-        if opts.tones_hz is not None:
-            # the band to watch is known from the hints: one pass gives spectra and power trace
-            f0, f1 = opts.tones_hz
-            guard = rs if rs is not None else f1 - f0
-            band = (f0 - guard, f1 + guard)
-            known = _TraceSpec(band, *_trace_frame(cap, band, rs))
-        blk = _block_size(block, nfft_psd, acquire.SPECTROGRAM_NFFT, known.frame if known else 1)
-        spectra = _spectra_pass(cap, read, blk, nfft_psd, known, stage_progress("spectrum"),
-                                "spectrum and power" if known else "spectrum")
-        sgram = spectra.spectrogram
+        sgram = scan.spectrogram
         if known is None:
             band = acquire.occupied_band(sgram, fs, positive_only=cap.kind == "audio")
             if band is None:
@@ -882,18 +720,18 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
                 raise InputError(f"no tone bursts found above the noise floor ({floor_db:.1f} dBFS per "
                                  f"sample)", cap.path, "check that the capture holds a transmission, or give "
                                  "--tones and --baud")
-            spec = _TraceSpec(band, *_trace_frame(cap, band, rs))
-            power, noise = _power_trace(cap, read, _block_size(block, spec.frame), spec,
-                                        stage_progress("power trace"))
+            spec = survey.TraceSpec(band, *_trace_frame(cap, band, rs))
+            trace = survey.trace_pass(cap.read, cap.n_samples, fs, _block_size(block, spec.frame), spec, scan.mean,
+                                      stage_progress("power trace"))
         else:
             spec = known
-            power, noise = spectra.power, spectra.noise
+            trace = scan.trace
+        power = trace.power
         frame = spec.frame
-        freqs, psd = spectra.freqs, spectra.psd
+        freqs, psd = scan.freqs, scan.psd
         bw = band[1] - band[0]
         sps_min = fs / rs if rs is not None else max(2.0, fs / bw)
-        bins = acquire.band_bins(fs, band, frame)
-        trace = acquire.PowerTrace(power, noise, frame, bins, band)
+        bins = trace.bins
         spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps_min)
         noise_var = floor * frame / max(bins, 1)       # complex noise variance per sample
         full_scale = 1.0

@@ -1,0 +1,311 @@
+"""The passes over a whole capture: sample checks, DC offset, spectra and the band-power trace.
+
+With the tones known from hints, one pass reads the capture once and yields
+everything the burst search needs; blind, a second pass forms the trace once
+the spectra have shown where the signal lies.
+
+The DC offset (the mean of all samples) is known only at the end of the pass,
+so the spectra and the trace are taken of the raw samples and corrected
+afterwards, exactly: subtracting a constant ``d`` from a frame changes its DFT
+only where the window's own DFT ``W`` is nonzero, by ``-d W_k`` -- at 0 Hz
+alone for the rectangular trace frames, and at 0 Hz and the two neighbouring
+bins for the periodic Hann window of the spectra (``W_0 = N/2``,
+``W_{+-1} = -N/4``).  Each frame keeps its raw DFT there.
+
+Every sum is formed per :data:`QUANTUM` samples or per frame and the pieces
+are put together at the end, so no result depends on the read block.
+
+References
+----------
+.. [1] F. J. Harris, "On the use of windows for harmonic analysis with the
+   discrete Fourier transform," Proc. IEEE, vol. 66, no. 1, pp. 51-83, 1978
+   (the periodic Hann window's three-term DFT; from memory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from . import acquire
+from .errors import InputError
+
+__all__ = ["QUANTUM", "TraceSpec", "Survey", "block_size", "blocks", "survey", "trace_pass",
+           "spectrogram_stride"]
+
+#: Samples per partial sum (a power of two, at least the spectrogram frame).
+QUANTUM = 1 << 12
+#: With hints, at most about this many spectrogram frames are transformed:
+#: one frame in ``stride`` along a long capture (the report's figure shows at
+#: most 1200 rows, and the averaged spectrum of a few thousand frames is as
+#: steady as that of all of them).  Blind, every frame is transformed, since
+#: the band is found from them.
+SPECTROGRAM_MAX_FRAMES = 4800
+
+
+@dataclass(frozen=True)
+class TraceSpec:
+    """What the power trace needs: band, frame and noise bands."""
+
+    band: tuple[float, float]
+    frame: int
+    noise_bands: list
+
+
+@dataclass(frozen=True)
+class Survey:
+    """What the pass found.
+
+    Attributes
+    ----------
+    mean : complex
+        Mean of all samples (the DC offset), full scale.
+    power : float
+        Mean ``|x|^2``.
+    clipped : int
+        Samples at the converter limit (integer formats).
+    any_signal : bool
+        Some sample is not zero.
+    spectrogram : numpy.ndarray
+        (frames, cells) float32 power per cell, DC offset removed.
+    spectrogram_stride : int
+        One frame of :data:`acquire.SPECTROGRAM_NFFT` samples in this many was transformed.
+    freqs, psd : numpy.ndarray
+        Averaged spectrum (fftshifted), DC offset removed.
+    trace : acquire.PowerTrace or None
+        The band-power trace (DC offset removed) when a band was given.
+    """
+
+    mean: complex
+    power: float
+    clipped: int
+    any_signal: bool
+    spectrogram: np.ndarray
+    spectrogram_stride: int
+    freqs: np.ndarray
+    psd: np.ndarray
+    trace: acquire.PowerTrace | None = None
+
+
+def block_size(block: int | None, default: int, *frames: int) -> int:
+    """Read block: at least ``block`` (or ``default``) samples, a whole multiple of QUANTUM and of each frame."""
+    unit = max((QUANTUM,) + tuple(int(f) for f in frames))
+    want = max(int(block or default), unit)
+    return -(-want // unit) * unit
+
+
+def blocks(read, n_samples: int, block: int, progress=None, stage: str = ""):
+    """Yield ``(position, samples)`` over the whole capture, ``block`` samples at a time,
+    reporting progress after each block."""
+    pos = 0
+    while pos < n_samples:
+        x = read(pos, block)
+        if len(x) == 0:
+            break
+        yield pos, x
+        pos += len(x)
+        if progress:
+            progress(pos, n_samples, stage)
+
+
+def spectrogram_stride(n_samples: int, every_frame: bool) -> int:
+    """Spectrogram frames skipped per frame transformed (1 = all)."""
+    if every_frame:
+        return 1
+    return max(1, (n_samples // acquire.SPECTROGRAM_NFFT) // SPECTROGRAM_MAX_FRAMES)
+
+
+def _first_bad(x: np.ndarray, pos: int, path) -> None:
+    finite = np.isfinite(x)
+    if not np.all(finite):
+        bad = pos + int(np.flatnonzero(~finite)[0])
+        raise InputError(f"sample {bad} is not a finite number (NaN or Inf)", path,
+                         "the recording is corrupt; trim or re-record it")
+
+
+def _quantum_sums(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sum and energy of each QUANTUM of ``x`` (the last one may be short)."""
+    full = len(x) // QUANTUM * QUANTUM
+    parts = [x[:full].reshape(-1, QUANTUM)] if full else []
+    sums = [np.sum(q, axis=1, dtype=np.complex128) for q in parts]
+    v = x.view(np.float32) if x.dtype == np.complex64 else x.astype(np.complex64).view(np.float32)
+    vq = v[:2 * full].reshape(-1, 2 * QUANTUM)
+    energy = [np.einsum("ij,ij->i", vq, vq, dtype=np.float64)] if full else []
+    if full < len(x):
+        sums.append(np.array([np.sum(x[full:], dtype=np.complex128)]))
+        t = v[2 * full:].astype(np.float64)
+        energy.append(np.array([np.dot(t, t)]))
+    return (np.concatenate(sums) if sums else np.empty(0, complex),
+            np.concatenate(energy) if energy else np.empty(0))
+
+
+def periodic_hann(n: int) -> np.ndarray:
+    """``0.5 - 0.5 cos(2 pi k / n)``, ``k = 0 .. n-1`` (its DFT has three nonzero bins)."""
+    return (0.5 - 0.5 * np.cos(2 * np.pi * np.arange(n) / n)).astype(np.float32)
+
+
+class _Periodograms:
+    """Hann-windowed frames of one length: spectrogram cells, averaged spectrum, raw DC bins."""
+
+    #: DFT bins a constant reaches through the periodic Hann window, and the window's DFT there
+    BINS = (0, 1, -1)
+
+    def __init__(self, nfft: int, cells: int | None, stride: int):
+        self.nfft, self.cells, self.stride = nfft, cells, stride
+        self.w = periodic_hann(nfft)
+        self.w2 = 3.0 * nfft / 8.0                      # sum of the periodic Hann window squared
+        self.W = np.array([nfft / 2.0, -nfft / 4.0, -nfft / 4.0])
+        self.rows, self.raw = [], []
+        self.psd = np.zeros(nfft)
+        self.xsum = np.zeros(3, complex)
+        self.n = 0
+
+    def add(self, x: np.ndarray, pos: int) -> None:
+        from scipy.fft import fft
+
+        m = len(x) // self.nfft
+        if m == 0:
+            return
+        first = pos // self.nfft
+        take = np.flatnonzero((first + np.arange(m)) % self.stride == 0)
+        if take.size == 0:
+            return
+        frames = x[:m * self.nfft].reshape(m, self.nfft)[take] * self.w
+        xf = fft(frames, axis=1)
+        spec = xf.real ** 2 + xf.imag ** 2
+        self.psd += np.sum(spec, axis=0, dtype=np.float64)
+        raw = xf[:, list(self.BINS)].astype(np.complex128)
+        self.xsum += raw.sum(axis=0)
+        self.n += take.size
+        if self.cells:
+            self.raw.append(raw)
+            spec = np.fft.fftshift(spec, axes=1) / np.float32(self.w2)
+            self.rows.append(spec.reshape(take.size, self.cells, self.nfft // self.cells)
+                             .mean(axis=2, dtype=np.float32))
+
+    def spectrogram(self, dc: complex) -> np.ndarray:
+        if not self.rows:
+            return np.empty((0, self.cells or 0), np.float32)
+        sg = np.concatenate(self.rows)
+        if dc != 0:
+            raw = np.concatenate(self.raw)
+            per_cell = self.nfft // self.cells
+            for j, k in enumerate(self.BINS):
+                shifted = raw[:, j] - dc * self.W[j]
+                delta = (np.abs(shifted) ** 2 - np.abs(raw[:, j]) ** 2) / (self.w2 * per_cell)
+                cell = ((k + self.nfft // 2) % self.nfft) // per_cell
+                sg[:, cell] += delta.astype(np.float32)
+        return sg
+
+    def spectrum(self, dc: complex, sample_rate_hz: float) -> tuple[np.ndarray, np.ndarray]:
+        psd = self.psd.copy()
+        if dc != 0 and self.n:
+            for j, k in enumerate(self.BINS):
+                b = dc * self.W[j]
+                psd[k] += -2.0 * float(np.real(self.xsum[j] * np.conj(b))) + self.n * abs(b) ** 2
+        if self.n:
+            psd /= self.n * self.w2
+        freqs = np.fft.fftshift(np.fft.fftfreq(self.nfft, 1.0 / sample_rate_hz))
+        return freqs, np.fft.fftshift(psd)
+
+
+class _Trace:
+    """Band-power trace frames, with the raw DC bins for the correction."""
+
+    def __init__(self, spec: TraceSpec, sample_rate_hz: float):
+        self.spec, self.fs = spec, sample_rate_hz
+        self.power, self.noise, self.dc_bin = [], [], []
+
+    def add(self, x: np.ndarray, pos: int) -> None:
+        s = self.spec
+        p, nd, x0 = acquire.band_power_frames(x, self.fs, s.band, s.frame, s.noise_bands)
+        self.power.append(p)
+        self.noise.append(nd)
+        self.dc_bin.append(x0)
+
+    def result(self, dc: complex) -> acquire.PowerTrace:
+        s = self.spec
+        cat = (lambda parts, dt: np.concatenate(parts) if parts else np.empty(0, dt))
+        power = acquire.remove_dc(cat(self.power, float), cat(self.dc_bin, complex), dc, self.fs, s.band, s.frame)
+        return acquire.PowerTrace(power, cat(self.noise, float), s.frame,
+                                  acquire.band_bins(self.fs, s.band, s.frame), s.band)
+
+
+def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: int, *,
+           kind: str = "iq", clip_level: float | None = None, path=None, trace: TraceSpec | None = None,
+           stride: int = 1, progress=None, stage: str = "survey") -> Survey:
+    """One pass over the raw samples: checks, mean, power, clipping, spectra and (with ``trace``) the trace.
+
+    Parameters
+    ----------
+    read : callable
+        ``read(start, count)`` of the raw capture.
+    n_samples : int
+        Samples in the capture.
+    sample_rate_hz : float
+        Sample rate.
+    block : int
+        Samples per read (a multiple of QUANTUM and of every frame length; see :func:`block_size`).
+    nfft_psd : int
+        Frame of the averaged spectrum: :data:`acquire.SPECTROGRAM_NFFT`, or
+        shorter for captures shorter than that (then with no spectrogram).
+    kind : str
+        ``"iq"`` or ``"audio"`` (audio: only the real part is stored, so only
+        it can clip).
+    clip_level : float, optional
+        Converter limit for integer formats.
+    path : optional
+        For error messages.
+    trace : TraceSpec, optional
+        Band of the power trace, when known before the pass.
+    stride : int
+        Transform one spectrogram frame in this many (see :func:`spectrogram_stride`).
+
+    Raises
+    ------
+    InputError
+        At the first sample that is not a finite number.
+    """
+    nfft = acquire.SPECTROGRAM_NFFT
+    main = _Periodograms(nfft, acquire.SPECTROGRAM_CELLS, stride)
+    short = _Periodograms(nfft_psd, None, 1) if nfft_psd != nfft else None
+    tr = _Trace(trace, sample_rate_hz) if trace is not None else None
+    sums, energies = [], []
+    clipped = 0
+    end = 0
+    for pos, x in blocks(read, n_samples, block, progress, stage):
+        end = pos + len(x)
+        sm, en = _quantum_sums(x)
+        if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
+            _first_bad(x, pos, path)
+        sums.append(sm)
+        energies.append(en)
+        if clip_level is not None:
+            over = np.abs(x.real) >= clip_level
+            if kind != "audio":          # audio: the imaginary part is computed, not stored
+                over |= np.abs(x.imag) >= clip_level
+            clipped += int(np.count_nonzero(over))
+        main.add(x, pos)
+        if short is not None:
+            short.add(x, pos)
+        if tr is not None:
+            tr.add(x, pos)
+    n = max(end, 1)
+    sm = np.concatenate(sums) if sums else np.zeros(1, complex)
+    en = np.concatenate(energies) if energies else np.zeros(1)
+    total_e = float(np.sum(en))
+    dc = complex(np.sum(sm)) / n
+    freqs, psd = (short or main).spectrum(dc, sample_rate_hz)
+    return Survey(mean=dc, power=total_e / n, clipped=clipped, any_signal=total_e > 0,
+                  spectrogram=main.spectrogram(dc), spectrogram_stride=stride, freqs=freqs, psd=psd,
+                  trace=tr.result(dc) if tr is not None else None)
+
+
+def trace_pass(read, n_samples: int, sample_rate_hz: float, block: int, spec: TraceSpec, dc: complex = 0j,
+               progress=None, stage: str = "power trace") -> acquire.PowerTrace:
+    """One more pass over the raw samples for the band-power trace (DC offset ``dc`` removed)."""
+    tr = _Trace(spec, sample_rate_hz)
+    for pos, x in blocks(read, n_samples, block, progress, stage):
+        tr.add(x, pos)
+    return tr.result(dc)
