@@ -107,8 +107,9 @@ def analyze_one(path: str, name: str, opts: BatchOptions) -> dict:
             for p in paths.values():
                 check_output(p, inputs, opts.overwrite)
             with np.errstate(all="ignore"):
+                # one capture per worker already keeps the cores busy: no workers within
                 result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, reference=reference,
-                                 block=opts.block)
+                                 block=opts.block, workers=1)
             report = json_report.build_report(result)
             if spec is not None:
                 from .spec import judge

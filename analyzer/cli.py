@@ -104,6 +104,9 @@ def analyze(
     quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
     strict: bool = typer.Option(False, "--strict", help="Treat a SigMF checksum mismatch as an error, "
                                                        "not a warning."),
+    workers: Optional[int] = typer.Option(None, "--workers", min=1,
+                                          help="Processes that analyse bursts side by side (default: every "
+                                               "core; 1 = one process). Results are the same either way."),
 ):
     """Analyse one capture and write JSON and HTML reports (and PDF / SigMF annotations when asked).
 
@@ -118,7 +121,8 @@ def analyze(
         code = run_analyze(capture=capture, tones=_pair(tones, "--tones"), baud=baud, rate=rate,
                            fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
                            name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet,
-                           spec_path=spec, pdf_path=pdf_path, annotate=annotate, strict=strict)
+                           spec_path=spec, pdf_path=pdf_path, annotate=annotate, strict=strict,
+                           workers=workers)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001 - every failure becomes one error line

@@ -7,6 +7,7 @@ Python for scripted runs.
 from __future__ import annotations
 
 import sys
+import time
 from pathlib import Path
 
 from .errors import InputError
@@ -21,12 +22,19 @@ def _progress_bar(quiet: bool):
         return None, None
     from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
+    # redrawn from the callback, not by a refresh thread: the analysis may fork
+    # worker processes, which must not copy a thread holding the console's lock
     prog = Progress(TextColumn("{task.description:<20}"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
-                    TimeRemainingColumn(), transient=True)
+                    TimeRemainingColumn(), transient=True, auto_refresh=False)
     task = prog.add_task("reading", total=1)
+    last = {"t": 0.0}
 
     def cb(done: int, total: int, stage: str = "reading") -> None:
         prog.update(task, total=max(total, 1), completed=done, description=stage)
+        now = time.monotonic()
+        if now - last["t"] >= 0.1 or done >= total:
+            last["t"] = now
+            prog.refresh()
 
     return prog, cb
 
@@ -92,7 +100,7 @@ def write_all(items: list[tuple[Path, bytes | str]]) -> list[Path]:
 def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, decision: str, out: Path,
                 name: str | None, json_path: Path | None, html_path: Path | None, overwrite: bool,
                 quiet: bool, spec_path: Path | None = None, pdf_path: Path | None = None,
-                annotate: bool = False, strict: bool = False) -> int:
+                annotate: bool = False, strict: bool = False, workers: int | None = None) -> int:
     """Analyse, judge against the spec, write the reports, print the summary; return the exit code."""
     from .report.html import render_html
     from .report.terminal import print_summary
@@ -118,10 +126,10 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
     if prog:
         with prog:
             result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
-                             reference=reference, decision=decision, progress=cb, strict=strict)
+                             reference=reference, decision=decision, progress=cb, strict=strict, workers=workers)
     else:
         result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=rate, fmt=fmt,
-                         reference=reference, decision=decision, strict=strict)
+                         reference=reference, decision=decision, strict=strict, workers=workers)
     # the files actually read (a SigMF core:dataset may name another data file)
     opened = [Path(result.capture.path), Path(result.capture.data_path)]
     for p in paths.values():

@@ -16,7 +16,7 @@ import numpy as np
 from . import acquire, branches, decide, diagnostics, estimate, prbs, survey, theory
 from .capture import Capture, open_capture
 from .errors import CaptureWarning, InputError, warn
-from .heap import keep_freed_memory
+from .heap import keep_freed_memory, release_freed_memory
 
 __all__ = ["AnalysisOptions", "BurstResult", "Summary", "AnalysisResult", "analyze", "analyze_capture"]
 
@@ -653,17 +653,121 @@ def _common_rate(starts: list) -> list:
     return out
 
 
+@dataclass(frozen=True)
+class _RegionContext:
+    """What the analysis of any region needs besides the region itself."""
+
+    read: Callable[[int, int], np.ndarray]
+    kind: str
+    fs: float
+    opts: AnalysisOptions
+    bits_text: str | None
+    full_scale: float
+
+
+def _region_bursts(ctx: _RegionContext, a: int, b: int, start, noise_var: float) -> list[BurstResult]:
+    """Every burst in the capture region ``[a, b)`` (indices numbered from 0 within the region)."""
+    if start is None:
+        return []
+    x = _receiver_input(ctx.read(a, b - a), ctx.kind)
+    tones0, rs0 = start
+    out: list[BurstResult] = []
+    for grid0, first, stop, span in _acquire_bursts_in_span(x, a, ctx.fs, tones0, rs0, noise_var):
+        out.append(_analyse_burst(len(out), x, a, ctx.fs, grid0, first, stop, ctx.opts, ctx.bits_text,
+                                  ctx.full_scale, tones0, rs0, span))
+    return out
+
+
+#: Set in the parent just before the worker processes are forked; they inherit it.
+_FORKED_CONTEXT: _RegionContext | None = None
+#: Fewest regions for which worker processes pay for themselves (forking two
+#: workers costs a few tens of milliseconds, a region of a few thousand
+#: symbols about as much).
+PARALLEL_MIN_REGIONS = 4
+
+
+def _region_task(task) -> tuple[list[BurstResult], list[str]]:
+    """One region in a worker process: its bursts and the warnings it raised."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", CaptureWarning)
+        found = _region_bursts(_FORKED_CONTEXT, *task)
+    return found, [str(w.message) for w in caught if issubclass(w.category, CaptureWarning)]
+
+
+def default_workers() -> int:
+    """Processes for the burst analysis: the cores this process may run on."""
+    import os
+
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:          # not on Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def _can_fork() -> bool:
+    import multiprocessing
+    import threading
+
+    # forking copies only the calling thread: with other threads alive (a
+    # progress bar refreshing itself, a host application) a lock they hold
+    # would stay held in the child, so the analysis then stays in this process
+    return "fork" in multiprocessing.get_all_start_methods() and threading.active_count() == 1
+
+
+def _map_regions(ctx: _RegionContext, tasks: list, workers: int | None):
+    """Yield the bursts of each region in order: here, or in forked worker processes.
+
+    Results do not depend on the choice: each region is analysed by the same
+    code on the same samples, and the bursts are numbered in region order.
+    """
+    global _FORKED_CONTEXT
+    n = default_workers() if workers is None else int(workers)
+    busy = [t for t in tasks if t[2] is not None]
+    if n <= 1 or len(busy) < PARALLEL_MIN_REGIONS or not _can_fork():
+        for t in tasks:
+            yield _region_bursts(ctx, *t)
+        return
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    _FORKED_CONTEXT = ctx
+    release_freed_memory()
+    try:
+        with ProcessPoolExecutor(max_workers=min(n, len(busy)), mp_context=multiprocessing.get_context("fork")) as pool:
+            for found, messages in pool.map(_region_task, tasks):
+                for m in messages:
+                    warn(m)
+                yield found
+    finally:
+        _FORKED_CONTEXT = None
+
+
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
                     progress: Callable[[int, int, str], None] | None = None,
-                    prior_warnings: tuple[str, ...] = (), block: int | None = None) -> AnalysisResult:
+                    prior_warnings: tuple[str, ...] = (), block: int | None = None,
+                    workers: int | None = None) -> AnalysisResult:
     """Analyse an opened capture (see :func:`analyze`).
 
     ``prior_warnings`` (from opening the capture) are put first in the result's warnings.
     ``block`` is the number of samples read at a time in the passes over the
     capture (default :data:`BLOCK_SAMPLES`); it changes memory use, not results.
+    ``workers`` is the number of processes for the burst regions (default
+    :func:`default_workers`; 1 keeps everything in this process); it changes
+    speed, not results.
     """
     _check_hints(cap, opts)
     keep_freed_memory()
+    # The matrices here are small (a burst's symbols by a few columns): a
+    # multi-threaded BLAS spends more time waking and spinning its threads
+    # than computing, and its idle threads take the core from worker processes.
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _analyze_capture(cap, opts, bits_text, progress, prior_warnings, block, workers)
+
+
+def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, prior_warnings, block,
+                     workers) -> AnalysisResult:
     fs = cap.sample_rate_hz
     nfft_psd = int(min(acquire.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
     # the passes: the survey (checks, DC, spectra, and the power trace when the band is
@@ -767,19 +871,18 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
             starts = _common_rate(starts)
         # the noise floor where each region lies (it may drift along the capture)
         track = acquire.floor_track(trace, floor) * frame / max(bins, 1)
+        tasks = []
         for (a, b), start in zip(regions, starts):
-            region_done += b - a
             if start is None:
-                if burst_cb:
-                    burst_cb(region_done, region_total)
+                tasks.append((a, b, None, 0.0))
                 continue
-            x = _receiver_input(read(a, b - a), cap.kind)
-            tones0, rs0 = start[:2]
             fa, fb = a // frame, max(a // frame + 1, min(b // frame, len(track)))
             local_nv = float(np.median(track[fa:fb])) if fb > fa and len(track) else noise_var
-            for grid0, first, stop, span in _acquire_bursts_in_span(x, a, fs, tones0, rs0, local_nv):
-                bursts.append(_analyse_burst(len(bursts), x, a, fs, grid0, first, stop, opts,
-                                             bits_text, full_scale, tones0, rs0, span))
+            tasks.append((a, b, (tuple(start[0]), float(start[1])), local_nv))
+        ctx = _RegionContext(read, cap.kind, fs, opts, bits_text, full_scale)
+        for (a, b, _, _), found in zip(tasks, _map_regions(ctx, tasks, workers)):
+            region_done += b - a
+            bursts.extend(replace(r, index=len(bursts) + i) for i, r in enumerate(found))
             if burst_cb:
                 burst_cb(region_done, region_total)
         sps = sps_min
@@ -818,7 +921,7 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
             sample_rate_hz: float | None = None, fmt: str | None = None, reference: str = "auto",
             decision: str = "square-law",
             progress: Callable[[int, int, str], None] | None = None, strict: bool = False,
-            block: int | None = None) -> AnalysisResult:
+            block: int | None = None, workers: int | None = None) -> AnalysisResult:
     """Analyse a capture of two-tone FSK bursts.
 
     Parameters
@@ -846,6 +949,12 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
         Samples read at a time in the passes over the capture (default
         :data:`BLOCK_SAMPLES`, rounded up to whole frames); results do not
         depend on it.
+    workers : int, optional
+        Processes that analyse the burst regions side by side (default: the
+        cores available; 1 = all in this process).  Results do not depend on
+        it.  Workers are forked, so this applies where the platform can fork
+        and no other thread is running; elsewhere the analysis stays in this
+        process.
 
     Returns
     -------
@@ -876,4 +985,5 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     opts = AnalysisOptions(tones_hz=None if tones_hz is None else (float(tones_hz[0]), float(tones_hz[1])),
                            symbol_rate_hz=None if symbol_rate_hz is None else float(symbol_rate_hz),
                            reference=reference, decision=decision)
-    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress, prior_warnings=opened, block=block)
+    return analyze_capture(cap, opts, bits_text=bits_text, progress=progress, prior_warnings=opened, block=block,
+                           workers=workers)

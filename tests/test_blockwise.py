@@ -134,3 +134,44 @@ def test_progress_bar_only_on_a_terminal(monkeypatch):
     task = prog.tasks[0]
     assert (task.completed, task.total, task.description) == (5, 20, "spectrum")   # exact
     assert commands._progress_bar(quiet=True) == (None, None)
+
+
+_WORKER_CHECK = r"""
+import json, os, sys
+from analyzer import pipeline
+from analyzer.errors import warn
+from analyzer.report import json_report
+meta, out = sys.argv[1], sys.argv[2]
+kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
+one = json_report.build_report(pipeline.analyze(meta, workers=1, **kw))
+real = pipeline._region_bursts
+def spy(*args):
+    warn(f"pid {os.getpid()}")                  # carried back with the region's warnings
+    return real(*args)
+pipeline._region_bursts = spy
+two = pipeline.analyze(meta, workers=2, **kw)
+pids = sorted({m for m in two.warnings if m.startswith("pid ")})
+rep = json_report.build_report(two)
+rep["warnings"] = [m for m in rep["warnings"] if not m.startswith("pid ")]
+json.dump({"parent": os.getpid(), "pids": pids, "one": one, "two": rep}, open(out, "w"))
+"""
+
+
+def test_worker_processes_give_the_same_report(tmp_path):
+    """Bursts analysed in forked workers: the same numbers as in one process (reference: the
+    single-process run, zero tolerance).  Run in a fresh interpreter: this test process may hold
+    other threads, and then the analysis rightly declines to fork."""
+    import subprocess
+    import sys
+
+    res = synthesize(SynthParams(n_bursts=6, symbols_per_burst=300, gap_samples=9000.0, ebn0_db=10.0, seed=3))
+    meta = writers.write_sigmf(tmp_path / "six", res.samples, 80e3, truth=res.truth)
+    out = tmp_path / "check.json"
+    subprocess.run([sys.executable, "-c", _WORKER_CHECK, str(meta), str(out)], check=True, timeout=300)
+    got = json.loads(out.read_text())
+    assert got["pids"] and f"pid {got['parent']}" not in got["pids"]   # it really ran in other processes
+    one, two = got["one"], got["two"]
+    assert len(one["bursts"]) == 6
+    a, b = dict(_numbers(one)), dict(_numbers(two))
+    assert a.keys() == b.keys()
+    assert {k: (a[k], b[k]) for k in a if a[k] != b[k]} == {}          # tolerance: exactly equal
