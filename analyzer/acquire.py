@@ -374,13 +374,13 @@ def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, false_rate: flo
     makes this ``false_rate`` are taken as gaps between bursts (shorter gaps
     cannot be told from noise at this signal level).
     """
-    from scipy import stats as _st
+    from scipy.special import chndtr      # the noncentral chi-square CDF (scipy.stats.ncx2.cdf)
 
     n_sym = e.size
     if n_sym < 3 or g2 <= 0 or noise_level <= 0:
         return [(0, n_sym)]
     theta = noise_level + 0.5 * g2
-    p = float(_st.ncx2.cdf(4 * theta / noise_level, 4, 4 * g2 / noise_level))
+    p = float(chndtr(4 * theta / noise_level, 4, 4 * g2 / noise_level))
     if not 0 < p < 1:
         return [(0, n_sym)]
     r = int(max(2, np.ceil(np.log(false_rate / n_sym) / np.log(p))))
@@ -417,15 +417,16 @@ def lag_products(rows: np.ndarray) -> np.ndarray:
 
     The summed periodogram of the rows is the trigonometric polynomial
     ``P(f) = R[0] + 2 Re sum_{l>0} R[l] exp(-j 2 pi f l / fs)``, which
-    :func:`noncoherent_frequency` maximises without an FFT grid.
+    :func:`noncoherent_frequency` maximises without an FFT grid.  ``R[l]`` is
+    the sum of the l-th superdiagonal of the Gram matrix ``r^H r`` (one small
+    matrix product).
     """
     L = rows.shape[1]
-    nfft = int(2 ** np.ceil(np.log2(2 * L)))
-    spec = np.fft.fft(rows, n=nfft, axis=1)
-    # sum over rows of each row's autocorrelation, through one inverse FFT
-    acf = np.fft.ifft(np.sum(np.abs(spec) ** 2, axis=0))
-    # acf[l] = sum_k sum_m r[k, m + l] conj(r[k, m])
-    return acf[:L]
+    g = rows.conj().T @ rows                       # g[a, b] = sum_k conj(r[k, a]) r[k, b]
+    i, j = np.triu_indices(L)
+    v = g[i, j]
+    return (np.bincount(j - i, weights=v.real, minlength=L)
+            + 1j * np.bincount(j - i, weights=v.imag, minlength=L))
 
 
 def _periodogram_from_lags(R: np.ndarray, f: np.ndarray, fs: float) -> np.ndarray:

@@ -143,11 +143,18 @@ def symbol_matrix(x: np.ndarray, x_start: int, grid: SymbolGrid) -> tuple[np.nda
     n : numpy.ndarray
         shape (n_symbols, L), the capture sample index of each entry.
     """
-    n = grid.first_samples[:, None] + np.arange(grid.window)[None, :]
-    local = n - x_start
-    if local.size and (local.min() < 0 or local.max() >= len(x)):
+    first = grid.first_samples
+    n = first[:, None] + np.arange(grid.window)[None, :]
+    return _windows(x, first - x_start, grid.window), n
+
+
+def _windows(x: np.ndarray, local_first: np.ndarray, window: int) -> np.ndarray:
+    """Rows ``x[s : s + window]`` for each ``s`` of ``local_first`` (a copy, one row at a time)."""
+    if local_first.size and (local_first.min() < 0 or local_first.max() + window > len(x)):
         raise ValueError("symbol grid runs outside the samples given")
-    return x[local], n
+    if len(x) < window:
+        return np.empty((0, window), x.dtype)
+    return np.lib.stride_tricks.sliding_window_view(x, window)[local_first]
 
 
 def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
@@ -183,10 +190,7 @@ def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_ra
     for lo in range(0, grid.n_symbols, chunk):
         hi = min(lo + chunk, grid.n_symbols)
         n0 = firsts[lo:hi]
-        local = n0[:, None] - x_start + m[None, :]
-        if local.size and (local.min() < 0 or local.max() >= len(x)):
-            raise ValueError("symbol grid runs outside the samples given")
-        rows = x[local]                                   # (k, L)
+        rows = _windows(x, n0 - x_start, L)               # (k, L)
         acc = rows @ base                                 # (k, 2)
         rot = np.exp(-2j * np.pi * np.outer(n0, f) / sample_rate_hz)
         z[lo:hi] = acc * rot

@@ -387,27 +387,28 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
         if max(abs(a - b) for a, b in zip(tones, before)) < SETTLED_TONE_SHIFT * fs / grid.samples_per_symbol:
             break
-    grid = retime(grid, tones, dec)
-    out = branches.correlate(x, x_start, grid, tones, fs)
-    dec = decide.square_law(out.z)
 
-    rho = branches.template_correlation(tones, fs, grid.window)
-    scale = grid.samples_per_symbol / grid.window
-
-    # pattern sync and error count
+    # pattern sync on the last decisions (made with the tones before their last
+    # refinement, which moved them by less than SETTLED_TONE_SHIFT or twice)
     ref = _resolve_reference(opts, dec, bits_text)
     ec, low_one = _count(dec, ref)
-    if ec is not None and ec.synced and ec.bits > 0:
+    synced = ec is not None and ec.synced and ec.bits > 0
+    if synced:
         # with the pattern known, estimate the tones once more from the symbols
         # that truly carried them (wrong decisions would pull both inwards)
         known = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
         if continuous:
             grid = acquire.transition_timing(x, x_start, grid, tones, fs, known)
         tones = acquire.refine_tones(_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
-        out = branches.correlate(x, x_start, grid, tones, fs)
-        dec = decide.square_law(out.z)
-        rho = branches.template_correlation(tones, fs, grid.window)
-        ec, low_one = _count(dec, ref)
+    else:
+        grid = retime(grid, tones, dec)
+    out = branches.correlate(x, x_start, grid, tones, fs)
+    dec = decide.square_law(out.z)
+    rho = branches.template_correlation(tones, fs, grid.window)
+    scale = grid.samples_per_symbol / grid.window
+    if not synced:
+        ref = _resolve_reference(opts, dec, bits_text)   # look again with the final tones and timing
+    ec, low_one = _count(dec, ref)
     # burst edges to the symbol: extend or trim by the presence likelihood of each edge symbol
     edged = _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref)
     if edged is not None:
@@ -507,7 +508,13 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     while post > 0 and np.ceil(grid.first_start + (n + post - 1) * sps - 1e-9) + grid.window > x_start + len(x):
         post -= 1
     ext = branches.symbol_grid(grid.first_start - pre * sps, sps, n + pre + post)
-    z = branches.correlate(x, x_start, ext, tones, fs).z
+    # the burst's own outputs are known: correlate only the symbols beyond each edge
+    parts = [out.z]
+    if pre:
+        parts.insert(0, branches.correlate(x, x_start, branches.symbol_grid(ext.first_start, sps, pre), tones, fs).z)
+    if post:
+        parts.append(branches.correlate(x, x_start, branches.symbol_grid(grid.stop, sps, post), tones, fs).z)
+    z = np.concatenate(parts)
     dec_ext = decide.square_law(z)
     bits = dec_ext
     if ec is not None and ec.synced and ec.bits > 0:

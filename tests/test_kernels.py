@@ -111,3 +111,11 @@ def test_dc_removed_after_the_pass_equals_dc_removed_before():
     np.testing.assert_allclose(raw.trace.power, clean.trace.power, rtol=1e-4, atol=1e-9)
     np.testing.assert_allclose(raw.spectrogram, clean.spectrogram, rtol=1e-3, atol=1e-9)
     np.testing.assert_allclose(raw.psd, clean.psd, rtol=1e-3, atol=1e-12)
+
+
+def test_lag_products_match_their_definition():
+    rng = np.random.default_rng(2)
+    r = rng.standard_normal((50, 12)) + 1j * rng.standard_normal((50, 12))
+    # reference: the defining double sum R[l] = sum_k sum_m r[k, m+l] conj(r[k, m]), written out
+    ref = np.array([sum(np.sum(r[k, l:] * np.conj(r[k, :12 - l])) for k in range(50)) for l in range(12)])
+    np.testing.assert_allclose(acquire.lag_products(r), ref, rtol=1e-12, atol=1e-9)
