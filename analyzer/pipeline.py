@@ -721,6 +721,12 @@ def _can_fork() -> bool:
     return "fork" in multiprocessing.get_all_start_methods() and threading.active_count() == 1
 
 
+def _fork_workers(workers: int | None) -> int:
+    """Worker processes to fork for a pass: 1 where forking is not possible or not safe."""
+    n = default_workers() if workers is None else int(workers)
+    return n if n > 1 and _can_fork() else 1
+
+
 def _map_regions(ctx: _RegionContext, tasks: list, workers: int | None):
     """Yield the bursts of each region in order: here, or in forked worker processes.
 
@@ -810,7 +816,7 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         scan = survey.survey(cap.read, cap.n_samples, fs, blk, nfft_psd, kind=cap.kind,
                              clip_level=getattr(cap, "clip_level", None), path=cap.path, trace=known,
                              stride=survey.spectrogram_stride(cap.n_samples, every_frame=known is None),
-                             progress=stage_progress(stage), stage=stage)
+                             progress=stage_progress(stage), stage=stage, workers=_fork_workers(workers))
         if cap.n_samples == 0 or not scan.any_signal:
             raise InputError("the capture holds no signal (all samples are zero)", cap.path,
                              "check the recording chain")

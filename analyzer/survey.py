@@ -232,9 +232,116 @@ class _Trace:
                                   acquire.band_bins(self.fs, s.band, s.frame), s.band)
 
 
+@dataclass
+class _Partial:
+    """What the pass collects over one stretch of consecutive blocks."""
+
+    main: _Periodograms
+    short: _Periodograms | None
+    trace: _Trace | None
+    sums: list
+    energies: list
+    clipped: int = 0
+    end: int = 0
+
+
+def _stretch(read, lo: int, hi: int, block: int, setup: tuple, progress=None, stage: str = "") -> _Partial:
+    """The pass over samples ``lo <= n < hi`` (``lo`` a multiple of ``block``)."""
+    sample_rate_hz, nfft_psd, kind, clip_level, path, trace, stride = setup
+    nfft = acquire.SPECTROGRAM_NFFT
+    part = _Partial(_Periodograms(nfft, acquire.SPECTROGRAM_CELLS, stride),
+                    _Periodograms(nfft_psd, None, 1) if nfft_psd != nfft else None,
+                    _Trace(trace, sample_rate_hz) if trace is not None else None, [], [])
+    pos = lo
+    while pos < hi:
+        x = read(pos, min(block, hi - pos))
+        if len(x) == 0:
+            break
+        sm, en = _quantum_sums(x)
+        if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
+            _first_bad(x, pos, path)
+        part.sums.append(sm)
+        part.energies.append(en)
+        if clip_level is not None:
+            over = np.abs(x.real) >= clip_level
+            if kind != "audio":          # audio: the imaginary part is computed, not stored
+                over |= np.abs(x.imag) >= clip_level
+            part.clipped += int(np.count_nonzero(over))
+        for acc in (part.main, part.short, part.trace):
+            if acc is not None:
+                acc.add(x, pos)
+        pos += len(x)
+        part.end = pos
+        if progress:
+            progress(pos, hi, stage)
+    return part
+
+
+def _merge(parts: list[_Partial]) -> _Partial:
+    first = parts[0]
+    for p in parts[1:]:
+        for a, b in ((first.main, p.main), (first.short, p.short)):
+            if a is not None:
+                a.rows += b.rows
+                a.raw += b.raw
+                a.psd += b.psd
+                a.xsum += b.xsum
+                a.n += b.n
+        if first.trace is not None:
+            first.trace.power += p.trace.power
+            first.trace.noise += p.trace.noise
+            first.trace.dc_bin += p.trace.dc_bin
+        first.sums += p.sums
+        first.energies += p.energies
+        first.clipped += p.clipped
+        first.end = p.end
+    return first
+
+
+#: Captures at least this long are surveyed by forked worker processes, each
+#: over its own stretch of blocks (shorter ones are not worth the fork).
+PARALLEL_MIN_SAMPLES = 1 << 22
+#: Stretches per worker (progress advances stretch by stretch).
+_STRETCHES_PER_WORKER = 4
+
+_FORKED = None      # (read, block, setup): set in the parent just before forking
+
+
+def _stretch_task(bounds: tuple[int, int]) -> _Partial:
+    read, block, setup = _FORKED
+    return _stretch(read, bounds[0], bounds[1], block, setup)
+
+
+def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, workers: int, progress, stage):
+    """The pass over the whole capture, split in stretches among forked workers."""
+    global _FORKED
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    from .heap import release_freed_memory
+
+    n_blocks = -(-n_samples // block)
+    k = int(min(n_blocks, workers * _STRETCHES_PER_WORKER))
+    cuts = [int(round(i * n_blocks / k)) * block for i in range(k + 1)]
+    cuts[-1] = n_samples
+    bounds = [(a, min(b, n_samples)) for a, b in zip(cuts[:-1], cuts[1:]) if a < min(b, n_samples)]
+    _FORKED = (read, block, setup)
+    release_freed_memory()
+    parts = []
+    try:
+        with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
+            for part in pool.map(_stretch_task, bounds):
+                parts.append(part)
+                if progress:
+                    progress(part.end, n_samples, stage)
+    finally:
+        _FORKED = None
+    return _merge(parts)
+
+
 def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: int, *,
            kind: str = "iq", clip_level: float | None = None, path=None, trace: TraceSpec | None = None,
-           stride: int = 1, progress=None, stage: str = "survey") -> Survey:
+           stride: int = 1, progress=None, stage: str = "survey", workers: int = 1) -> Survey:
     """One pass over the raw samples: checks, mean, power, clipping, spectra and (with ``trace``) the trace.
 
     Parameters
@@ -261,45 +368,32 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
         Band of the power trace, when known before the pass.
     stride : int
         Transform one spectrogram frame in this many (see :func:`spectrogram_stride`).
+    workers : int
+        Forked processes that share the pass for captures of at least
+        :data:`PARALLEL_MIN_SAMPLES` (the caller decides whether forking is
+        safe).  Every sum is kept per quantum or frame, so the result is the
+        same as from one process, up to the rounding of the averaged spectrum's
+        sum over frames.
 
     Raises
     ------
     InputError
         At the first sample that is not a finite number.
     """
-    nfft = acquire.SPECTROGRAM_NFFT
-    main = _Periodograms(nfft, acquire.SPECTROGRAM_CELLS, stride)
-    short = _Periodograms(nfft_psd, None, 1) if nfft_psd != nfft else None
-    tr = _Trace(trace, sample_rate_hz) if trace is not None else None
-    sums, energies = [], []
-    clipped = 0
-    end = 0
-    for pos, x in blocks(read, n_samples, block, progress, stage):
-        end = pos + len(x)
-        sm, en = _quantum_sums(x)
-        if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
-            _first_bad(x, pos, path)
-        sums.append(sm)
-        energies.append(en)
-        if clip_level is not None:
-            over = np.abs(x.real) >= clip_level
-            if kind != "audio":          # audio: the imaginary part is computed, not stored
-                over |= np.abs(x.imag) >= clip_level
-            clipped += int(np.count_nonzero(over))
-        main.add(x, pos)
-        if short is not None:
-            short.add(x, pos)
-        if tr is not None:
-            tr.add(x, pos)
-    n = max(end, 1)
-    sm = np.concatenate(sums) if sums else np.zeros(1, complex)
-    en = np.concatenate(energies) if energies else np.zeros(1)
+    setup = (sample_rate_hz, nfft_psd, kind, clip_level, path, trace, stride)
+    if workers > 1 and n_samples >= PARALLEL_MIN_SAMPLES and n_samples > block:
+        part = _parallel_stretches(read, n_samples, block, setup, workers, progress, stage)
+    else:
+        part = _stretch(read, 0, n_samples, block, setup, progress, stage)
+    n = max(part.end, 1)
+    sm = np.concatenate(part.sums) if part.sums else np.zeros(1, complex)
+    en = np.concatenate(part.energies) if part.energies else np.zeros(1)
     total_e = float(np.sum(en))
     dc = complex(np.sum(sm)) / n
-    freqs, psd = (short or main).spectrum(dc, sample_rate_hz)
-    return Survey(mean=dc, power=total_e / n, clipped=clipped, any_signal=total_e > 0,
-                  spectrogram=main.spectrogram(dc), spectrogram_stride=stride, freqs=freqs, psd=psd,
-                  trace=tr.result(dc) if tr is not None else None)
+    freqs, psd = (part.short or part.main).spectrum(dc, sample_rate_hz)
+    return Survey(mean=dc, power=total_e / n, clipped=part.clipped, any_signal=total_e > 0,
+                  spectrogram=part.main.spectrogram(dc), spectrogram_stride=stride, freqs=freqs, psd=psd,
+                  trace=part.trace.result(dc) if part.trace is not None else None)
 
 
 def trace_pass(read, n_samples: int, sample_rate_hz: float, block: int, spec: TraceSpec, dc: complex = 0j,

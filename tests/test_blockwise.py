@@ -143,22 +143,34 @@ from analyzer.errors import warn
 from analyzer.report import json_report
 meta, out = sys.argv[1], sys.argv[2]
 kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
-one = json_report.build_report(pipeline.analyze(meta, workers=1, **kw))
+one = json_report.build_report(pipeline.analyze(meta, workers=1, block=8192, **kw))
 real = pipeline._region_bursts
 def spy(*args):
     warn(f"pid {os.getpid()}")                  # carried back with the region's warnings
     return real(*args)
 pipeline._region_bursts = spy
-two = pipeline.analyze(meta, workers=2, **kw)
+# the survey pass too: shared by the workers for any capture longer than a block
+from analyzer import survey
+survey.PARALLEL_MIN_SAMPLES = 1
+real_task, real_merge, seen = survey._stretch_task, survey._merge, []
+def stretch_spy(bounds):
+    part = real_task(bounds)
+    part.pid = os.getpid()
+    return part
+def merge_spy(parts):
+    seen.extend(getattr(p, "pid", None) for p in parts)
+    return real_merge(parts)
+survey._stretch_task, survey._merge = stretch_spy, merge_spy
+two = pipeline.analyze(meta, workers=2, block=8192, **kw)
 pids = sorted({m for m in two.warnings if m.startswith("pid ")})
 rep = json_report.build_report(two)
 rep["warnings"] = [m for m in rep["warnings"] if not m.startswith("pid ")]
-json.dump({"parent": os.getpid(), "pids": pids, "one": one, "two": rep}, open(out, "w"))
+json.dump({"parent": os.getpid(), "pids": pids, "survey_pids": seen, "one": one, "two": rep}, open(out, "w"))
 """
 
 
 def test_worker_processes_give_the_same_report(tmp_path):
-    """Bursts analysed in forked workers: the same numbers as in one process (reference: the
+    """The survey pass and the bursts in forked workers: the same numbers as in one process (reference: the
     single-process run, zero tolerance).  Run in a fresh interpreter: this test process may hold
     other threads, and then the analysis rightly declines to fork."""
     import subprocess
@@ -170,6 +182,7 @@ def test_worker_processes_give_the_same_report(tmp_path):
     subprocess.run([sys.executable, "-c", _WORKER_CHECK, str(meta), str(out)], check=True, timeout=300)
     got = json.loads(out.read_text())
     assert got["pids"] and f"pid {got['parent']}" not in got["pids"]   # it really ran in other processes
+    assert len(got["survey_pids"]) > 1 and got["parent"] not in got["survey_pids"]
     one, two = got["one"], got["two"]
     assert len(one["bursts"]) == 6
     a, b = dict(_numbers(one)), dict(_numbers(two))
