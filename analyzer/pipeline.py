@@ -670,6 +670,7 @@ class _RegionContext:
     opts: AnalysisOptions
     bits_text: str | None
     full_scale: float
+    path: object = None
 
 
 def _region_bursts(ctx: _RegionContext, a: int, b: int, start, noise_var: float) -> list[BurstResult]:
@@ -685,20 +686,26 @@ def _region_bursts(ctx: _RegionContext, a: int, b: int, start, noise_var: float)
     return out
 
 
-#: Set in the parent just before the worker processes are forked; they inherit it.
-_FORKED_CONTEXT: _RegionContext | None = None
-#: Fewest regions for which worker processes pay for themselves (forking two
-#: workers costs a few tens of milliseconds, a region of a few thousand
+def _region_start(ctx: _RegionContext, a: int, b: int, band):
+    """Blind starting point (tones, rate, line quality) of the region ``[a, b)``, or None."""
+    return _starting_point(ctx.read(a, b - a).astype(np.complex128), ctx.fs, band, ctx.opts, ctx.path, a)
+
+
+#: ``(function, context)`` set in the parent just before worker processes are forked; they inherit it.
+_FORKED: tuple | None = None
+#: Fewest busy regions for which worker processes pay for themselves (forking
+#: two workers costs a few tens of milliseconds, a region of a few thousand
 #: symbols about as much).
 PARALLEL_MIN_REGIONS = 4
 
 
-def _region_task(task) -> tuple[list[BurstResult], list[str]]:
-    """One region in a worker process: its bursts and the warnings it raised."""
+def _forked_call(task):
+    """One task in a worker process: its result and the warnings it raised."""
+    fn, ctx = _FORKED
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
-        found = _region_bursts(_FORKED_CONTEXT, *task)
-    return found, [str(w.message) for w in caught if issubclass(w.category, CaptureWarning)]
+        out = fn(ctx, *task)
+    return out, [str(w.message) for w in caught if issubclass(w.category, CaptureWarning)]
 
 
 def default_workers() -> int:
@@ -727,32 +734,33 @@ def _fork_workers(workers: int | None) -> int:
     return n if n > 1 and _can_fork() else 1
 
 
-def _map_regions(ctx: _RegionContext, tasks: list, workers: int | None):
-    """Yield the bursts of each region in order: here, or in forked worker processes.
+def _fork_map(fn, ctx: _RegionContext, tasks: list, workers: int | None, busy: int):
+    """Yield ``fn(ctx, *task)`` for each task in order: here, or in forked worker processes.
 
-    Results do not depend on the choice: each region is analysed by the same
-    code on the same samples, and the bursts are numbered in region order.
+    Results do not depend on the choice: each task runs the same code on the
+    same samples, and results come back in task order.  ``busy`` counts the
+    tasks with real work (forking pays from :data:`PARALLEL_MIN_REGIONS`).
+    Warnings raised in a worker are raised again here.
     """
-    global _FORKED_CONTEXT
-    n = default_workers() if workers is None else int(workers)
-    busy = [t for t in tasks if t[2] is not None]
-    if n <= 1 or len(busy) < PARALLEL_MIN_REGIONS or not _can_fork():
+    global _FORKED
+    n = _fork_workers(workers)
+    if n <= 1 or busy < PARALLEL_MIN_REGIONS:
         for t in tasks:
-            yield _region_bursts(ctx, *t)
+            yield fn(ctx, *t)
         return
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
 
-    _FORKED_CONTEXT = ctx
+    _FORKED = (fn, ctx)
     release_freed_memory()
     try:
-        with ProcessPoolExecutor(max_workers=min(n, len(busy)), mp_context=multiprocessing.get_context("fork")) as pool:
-            for found, messages in pool.map(_region_task, tasks):
+        with ProcessPoolExecutor(max_workers=min(n, busy), mp_context=multiprocessing.get_context("fork")) as pool:
+            for out, messages in pool.map(_forked_call, tasks):
                 for m in messages:
                     warn(m)
-                yield found
+                yield out
     finally:
-        _FORKED_CONTEXT = None
+        _FORKED = None
 
 
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
@@ -875,12 +883,12 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         region_total = max(sum(b - a for a, b in regions), 1)
         region_done = 0
         bursts: list[BurstResult] = []
+        ctx = _RegionContext(read, cap.kind, fs, opts, bits_text, full_scale, cap.path)
         if opts.tones_hz is not None and opts.symbol_rate_hz is not None:
             # hints give every region its starting point: no need to read the regions twice
             starts = [(tuple(opts.tones_hz), float(opts.symbol_rate_hz), float("inf"))] * len(regions)
         else:
-            starts = [_starting_point(read(a, b - a).astype(np.complex128), fs, band, opts, cap.path, a)
-                      for a, b in regions]
+            starts = list(_fork_map(_region_start, ctx, [(a, b, band) for a, b in regions], workers, len(regions)))
             starts = _common_rate(starts)
         # the noise floor where each region lies (it may drift along the capture)
         track = acquire.floor_track(trace, floor) * frame / max(bins, 1)
@@ -892,8 +900,8 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
             fa, fb = a // frame, max(a // frame + 1, min(b // frame, len(track)))
             local_nv = float(np.median(track[fa:fb])) if fb > fa and len(track) else noise_var
             tasks.append((a, b, (tuple(start[0]), float(start[1])), local_nv))
-        ctx = _RegionContext(read, cap.kind, fs, opts, bits_text, full_scale)
-        for (a, b, _, _), found in zip(tasks, _map_regions(ctx, tasks, workers)):
+        busy = sum(t[2] is not None for t in tasks)
+        for (a, b, _, _), found in zip(tasks, _fork_map(_region_bursts, ctx, tasks, workers, busy)):
             region_done += b - a
             bursts.extend(replace(r, index=len(bursts) + i) for i, r in enumerate(found))
             if burst_cb:
