@@ -990,7 +990,8 @@ def _impulse_spectrum(trans: np.ndarray, length: int, sample_rate_hz: float):
     return np.fft.rfftfreq(nfft, 1.0 / sample_rate_hz), spec
 
 
-def blind_rate_candidates(x: np.ndarray, sample_rate_hz: float, tones_hz, n_peaks: int = 5) -> list[float]:
+def blind_rate_candidates(x: np.ndarray, sample_rate_hz: float, tones_hz, n_peaks: int = 5,
+                          transitions: tuple[np.ndarray, int] | None = None) -> list[float]:
     """The strongest lines of the tone-transition spectrum (see :func:`blind_symbol_rate`).
 
     Returns up to ``n_peaks`` local maxima between a quarter and four times the
@@ -998,7 +999,7 @@ def blind_rate_candidates(x: np.ndarray, sample_rate_hz: float, tones_hz, n_peak
     stay in range -- candidates for a timing-line test to choose from.
     """
     spacing = abs(float(tones_hz[1]) - float(tones_hz[0]))
-    trans, m = tone_transitions(x, sample_rate_hz, tones_hz)
+    trans, m = transitions if transitions is not None else tone_transitions(x, sample_rate_hz, tones_hz)
     if trans.size < 8 or spacing <= 0:
         return []
     freqs, spec = _impulse_spectrum(trans, len(x) - m + 1, sample_rate_hz)
@@ -1019,7 +1020,8 @@ def blind_rate_candidates(x: np.ndarray, sample_rate_hz: float, tones_hz, n_peak
     return out
 
 
-def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz) -> float | None:
+def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz,
+                      transitions: tuple[np.ndarray, int] | None = None) -> float | None:
     """Symbol rate with no hint: the line of the tone-transition instants.
 
     The instants from :func:`tone_transitions` lie on multiples of the symbol
@@ -1034,7 +1036,7 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz) -> float |
         Coarse symbol rate (refined later), or None with too few transitions.
     """
     spacing = abs(float(tones_hz[1]) - float(tones_hz[0]))
-    trans, m = tone_transitions(x, sample_rate_hz, tones_hz)
+    trans, m = transitions if transitions is not None else tone_transitions(x, sample_rate_hz, tones_hz)
     if trans.size < 8:
         return None
     freqs, spec = _impulse_spectrum(trans, len(x) - m + 1, sample_rate_hz)
@@ -1062,7 +1064,8 @@ def blind_symbol_rate(x: np.ndarray, sample_rate_hz: float, tones_hz) -> float |
 
 
 def transition_line_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz,
-                           rate_hint_hz: float, search_ppm: float = 3000.0) -> TimingEstimate | None:
+                           rate_hint_hz: float, search_ppm: float = 3000.0,
+                           transitions: tuple[np.ndarray, int] | None = None) -> TimingEstimate | None:
     """Symbol rate near the hint and timing from the tone-transition impulse train.
 
     The counterpart of :func:`estimate_symbol_timing` for continuous-phase
@@ -1071,7 +1074,7 @@ def transition_line_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, t
     rate, and its phase the timing (corrected for the slicer's lag of about
     0.3 window past the mid-point).
     """
-    trans, m = tone_transitions(x, sample_rate_hz, tones_hz)
+    trans, m = transitions if transitions is not None else tone_transitions(x, sample_rate_hz, tones_hz)
     if trans.size < 8:
         return None
     lo = rate_hint_hz * (1 - search_ppm * 1e-6)
@@ -1090,19 +1093,23 @@ def transition_line_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, t
 
 
 def symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz, rate_hint_hz: float,
-                  search_ppm: float = 3000.0, energy: EnergyTrace | None = None) -> TimingEstimate:
+                  search_ppm: float = 3000.0, energy: EnergyTrace | None = None,
+                  transitions: tuple[np.ndarray, int] | None = None) -> TimingEstimate:
     """Rate and timing: the energy line, or the transition line when the energy line is weak.
 
     The whole-symbol energy line (:func:`estimate_symbol_timing`) is the
     sharper one for phase-discontinuous keying; for continuous-phase keying it
     can be weak (quality below 20) and the transition line
     (:func:`transition_line_timing`) takes over when it is stronger.
-    ``energy`` is passed on to :func:`estimate_symbol_timing`.
+    ``energy`` is passed on to :func:`estimate_symbol_timing` and
+    ``transitions`` (from :func:`tone_transitions` on the same samples) to
+    :func:`transition_line_timing`: callers trying many rates on one stretch
+    compute them once.
     """
     tm = estimate_symbol_timing(x, x_start, sample_rate_hz, tones_hz, rate_hint_hz, search_ppm, energy)
     if tm.line_snr >= 20:
         return tm
-    alt = transition_line_timing(x, x_start, sample_rate_hz, tones_hz, rate_hint_hz, search_ppm)
+    alt = transition_line_timing(x, x_start, sample_rate_hz, tones_hz, rate_hint_hz, search_ppm, transitions)
     if alt is not None and alt.line_snr > tm.line_snr:
         return alt
     return tm

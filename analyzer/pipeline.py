@@ -598,7 +598,8 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
     rs = opts.symbol_rate_hz
     quality = float("inf")
     if rs is None:
-        rs = acquire.blind_symbol_rate(x, fs, tones)
+        trans = acquire.tone_transitions(x, fs, tones)        # shared by every rate tried below
+        rs = acquire.blind_symbol_rate(x, fs, tones, transitions=trans)
         if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
             warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
                  "give --baud to analyse it")
@@ -610,11 +611,16 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
         # lines too -- at high SNR about as strong: the lowest rate whose line is
         # at least half as strong as the strongest is the symbol rate)
         tried = []
-        cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones)
+        cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones, transitions=trans)
+        energies: dict[int, branches.EnergyTrace] = {}      # one per window length
         for cand in cands:
             if fs / cand > len(x) / 16:
                 continue
-            tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0))
+            w = int(np.floor(fs / cand))
+            if w not in energies:
+                energies[w] = branches.energy_trace(x, 0, w, tones, fs)
+            tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
+                                               transitions=trans))
         top = max(t.line_snr for t in tried)
         best = min((t for t in tried if t.line_snr >= 0.5 * top), key=lambda t: t.symbol_rate_hz)
         rs, quality = best.symbol_rate_hz, best.line_snr
