@@ -260,7 +260,7 @@ def model_checks(z: np.ndarray, sent: np.ndarray, gains: np.ndarray, noise_var: 
     .. [3] Fisher's z transform of a correlation coefficient (standard result,
        from memory); ``scipy.stats.norm`` tail.
     """
-    z = np.asarray(z)
+    zb = np.ascontiguousarray(np.asarray(z).T)          # (2, n): branch by branch
     sent = np.asarray(sent).astype(int)
     sig = np.sqrt(np.clip(np.asarray(noise_var, float), 1e-300, None))
     g = np.asarray(gains, float)
@@ -268,7 +268,7 @@ def model_checks(z: np.ndarray, sent: np.ndarray, gains: np.ndarray, noise_var: 
     n_tone = (int(np.count_nonzero(is_tone[0])), int(np.count_nonzero(is_tone[1])))
     checks = []
     # 1. noise branch Gaussianity (orthogonal tones: I and Q of the unsent branch, scaled)
-    idle = (z[~is_tone[0], 0], z[~is_tone[1], 1])         # branch i on the symbols that did not send i
+    idle = (zb[0][~is_tone[0]], zb[1][~is_tone[1]])      # branch i on the symbols that did not send i
     n_noise = 2 * (idle[0].size + idle[1].size)
     if rho_abs < 0.05 and n_noise >= 20:
         noise = np.concatenate([idle[0].real / sig[0], idle[0].imag / sig[0],
@@ -278,12 +278,12 @@ def model_checks(z: np.ndarray, sent: np.ndarray, gains: np.ndarray, noise_var: 
                              "non-Gaussian noise on the idle branch: impulsive noise, an interferer near "
                              "a tone, or clipping"))
     # 2. envelopes against Rice (sent) and Rayleigh/Rice-with-leakage (not sent)
-    env = np.abs(z)
+    env = np.abs(zb)
     d_on, n_on, d_off, n_off = [], [], [], []
     for i in (0, 1):
         j = 1 - i
-        on = env[is_tone[i], i]
-        off = env[is_tone[j], i]
+        on = env[i][is_tone[i]]
+        off = env[i][is_tone[j]]
         if on.size >= 10 and g[i] > 0:
             d_on.append(_ks_statistic(envelope_cdf(on, g[i], sig[i])))
             n_on.append(on.size)
@@ -304,8 +304,8 @@ def model_checks(z: np.ndarray, sent: np.ndarray, gains: np.ndarray, noise_var: 
                              "non-orthogonal tones, or intersymbol interference from timing error"))
     # 3. independence of the four outputs on the noise branches (orthogonal tones)
     if rho_abs < 0.05 and min(n_tone) >= 20:
-        a = z[is_tone[1], 0]   # branch 0 idle
-        b = z[is_tone[0], 1]   # branch 1 idle
+        a = zb[0][is_tone[1]]   # branch 0 idle
+        b = zb[1][is_tone[0]]   # branch 1 idle
         r_iq = [_pearson(a.real, a.imag), _pearson(b.real, b.imag)]
         n_min = min(a.size, b.size)
         zstat = max(abs(np.arctanh(r)) for r in r_iq) * np.sqrt(n_min - 3)
@@ -500,15 +500,16 @@ def output_correlations(z: np.ndarray, sent: np.ndarray) -> np.ndarray:
     ----------
     .. [1] Pearson product-moment correlation, ``numpy.corrcoef``.
     """
-    z = np.ascontiguousarray(z, dtype=np.complex128)
+    z = np.asarray(z)
     sent = np.asarray(sent).astype(int)
-    iq = z.reshape(len(z), 2).view(np.float64)          # columns I0, Q0, I1, Q1 (no copy)
+    iq = np.empty((4, len(z)))                           # rows I0, Q0, I1, Q1
+    iq[0], iq[1], iq[2], iq[3] = z[:, 0].real, z[:, 0].imag, z[:, 1].real, z[:, 1].imag
     out = np.full((2, 4, 4), np.nan)
     for j in (0, 1):
-        g = iq[sent == j]
-        if len(g) >= 3:
-            g -= g.mean(axis=0)
-            c = g.T @ g
+        g = np.compress(sent == j, iq, axis=1)
+        if g.shape[1] >= 3:
+            g -= g.mean(axis=1, keepdims=True)
+            c = g @ g.T
             sd = np.sqrt(np.diag(c))
             with np.errstate(invalid="ignore", divide="ignore"):
                 c /= sd[:, None]
