@@ -7,7 +7,8 @@ envelope checks, and a direct per-window sum for the window energies.  The
 model checks computed by hand are held to the scipy.stats routine each one
 reproduces: scipy.stats.normaltest, scipy.stats.f_oneway, scipy.stats.kstest
 and scipy.stats.norm, with numpy.corrcoef and numpy.polyfit for correlations
-and slopes, and the measured pulse to its per-entry definition (numpy.exp).
+and slopes, the grouped branch moments to numpy.mean / numpy.cov, and the
+measured pulse to its per-entry definition (numpy.exp).
 """
 
 from __future__ import annotations
@@ -18,7 +19,7 @@ import numpy as np
 import pytest
 from scipy import signal, stats
 
-from analyzer import acquire, branches, diagnostics
+from analyzer import acquire, branches, diagnostics, estimate
 from analyzer.estimate import GroupMoments
 
 
@@ -263,3 +264,23 @@ def test_noise_correlation_and_idle_power_tails_match_scipy():
     zs = [abs(0.1 / 0.09 - 1) * np.sqrt(380.0) * 0.09 / 0.1, abs(0.1 / 0.09 - 1) * np.sqrt(400.0) * 0.09 / 0.11]
     assert chk.statistic == pytest.approx(max(zs), rel=1e-12)                       # documented statistic
     assert chk.p_value == pytest.approx(min(1.0, 2 * stats.norm.sf(max(zs)) * 12), rel=1e-12)  # scipy.stats.norm
+
+
+def test_group_moments_match_numpy_mean_and_cov():
+    rng = np.random.default_rng(17)
+    n = 900
+    sent = rng.integers(0, 2, n)
+    mask = rng.uniform(size=n) < 0.8
+    z = rng.standard_normal((n, 2)) + 1j * rng.standard_normal((n, 2))
+    z[np.arange(n), sent] += 2.0
+    for m in (None, mask):
+        got = estimate.group_moments(z, sent, m)
+        use = np.ones(n, bool) if m is None else m
+        for j in (0, 1):
+            p = np.abs(z[use & (sent == j)]) ** 2
+            assert got.n[j] == len(p)
+            np.testing.assert_allclose(got.mean[j], p.mean(axis=0), rtol=1e-13)          # numpy.mean
+            np.testing.assert_allclose(got.cov[j], np.cov(p, rowvar=False), rtol=1e-12)  # reference: numpy.cov
+    one = estimate.group_moments(z[:3], np.array([0, 0, 1]))
+    np.testing.assert_allclose(one.mean[1], np.abs(z[2]) ** 2, rtol=1e-14)
+    assert one.n[1] == 1 and np.all(one.cov[1] == 0)
