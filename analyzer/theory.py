@@ -501,6 +501,17 @@ def clopper_pearson(errors, bits, level: float = 0.95):
        limits illustrated in the case of the binomial", *Biometrika*, 1934
        -- from memory.
     """
+    if np.ndim(errors) == 0 and np.ndim(bits) == 0:
+        # one count: the same interval without the array machinery
+        k, n = float(errors), float(bits)
+        if n <= 0 or k < 0 or k > n:
+            raise ValueError("clopper_pearson: need 0 <= errors <= bits and bits > 0")
+        if not (0.0 < level < 1.0):
+            raise ValueError("clopper_pearson: level must be in (0, 1)")
+        alpha = 1.0 - level
+        lo = special.betaincinv(k, n - k + 1.0, alpha / 2.0) if k > 0 else 0.0
+        hi = special.betaincinv(k + 1.0, n - k, 1.0 - alpha / 2.0) if k < n else 1.0
+        return np.float64(lo), np.float64(hi)
     k, n = np.broadcast_arrays(np.asarray(errors, dtype=float), np.asarray(bits, dtype=float))
     if np.any(n <= 0) or np.any(k < 0) or np.any(k > n):
         raise ValueError("clopper_pearson: need 0 <= errors <= bits and bits > 0")
