@@ -518,7 +518,8 @@ def output_correlations(z: np.ndarray, sent: np.ndarray) -> np.ndarray:
     return out
 
 
-def cross_branch_check(z: np.ndarray, sent: np.ndarray, n_tests: int = 5) -> ModelCheck | None:
+def cross_branch_check(z: np.ndarray, sent: np.ndarray, n_tests: int = 5,
+                       correlations: np.ndarray | None = None) -> ModelCheck | None:
     """Test that the tone-0 outputs are uncorrelated with the tone-1 outputs.
 
     The eight cross entries (I0, Q0 against I1, Q1, in both groups) of
@@ -526,7 +527,8 @@ def cross_branch_check(z: np.ndarray, sent: np.ndarray, n_tests: int = 5) -> Mod
     ``1/n`` when the two pairs are independent, whatever their distributions.
     The largest ``|r| sqrt(n)`` is referred to the normal law with a
     Bonferroni factor of 8 (and ``n_tests`` for the family).  Only meaningful
-    for orthogonal tones.
+    for orthogonal tones.  ``correlations``, if given, is
+    ``output_correlations(z, sent)`` already computed by the caller.
 
     References
     ----------
@@ -538,7 +540,7 @@ def cross_branch_check(z: np.ndarray, sent: np.ndarray, n_tests: int = 5) -> Mod
     counts = (int(np.count_nonzero(sent == 0)), int(np.count_nonzero(sent == 1)))
     if min(counts) < 20:
         return None
-    c = output_correlations(z, sent)
+    c = output_correlations(z, sent) if correlations is None else np.asarray(correlations)
     zs = []
     for j in (0, 1):
         if not np.all(np.isfinite(c[j])):
@@ -747,7 +749,10 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, sent: np.ndarray,
     rows : numpy.ndarray
         (n, L) samples of every symbol.
     sample_index : numpy.ndarray
-        (n, L) capture sample index of every entry of ``rows``.
+        (n, L) capture sample index of every entry of ``rows``, or (n,) the
+        index of each row's first sample when every row holds ``L`` consecutive
+        samples (as :func:`analyzer.branches.symbol_matrix` gathers them); the
+        short form skips the check that the rows are consecutive.
     sent : numpy.ndarray
         Tone sent per symbol (known or decided).
     tones_hz : (float, float)
@@ -789,7 +794,11 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, sent: np.ndarray,
     nv = np.asarray(noise_var_complex, float)
     even = (np.arange(L) % 2 == 0)
     idx = np.asarray(sample_index)
-    contiguous = bool(idx.size and np.all(idx[:, 1:] - idx[:, :-1] == 1)) if L > 1 else True
+    if idx.ndim == 1:
+        first, contiguous = idx, True
+    else:
+        first = idx[:, 0] if L > 0 else np.zeros(n)
+        contiguous = bool(idx.size and np.all(idx[:, 1:] - idx[:, :-1] == 1)) if L > 1 else True
 
     # Symbol k of tone i derotated is x_k = a_k * rows[k] * q_n with the per-symbol phasor
     # a_k = exp(-j 2 pi f_i n_k0 / fs) and the per-sample one q_n = exp(-j 2 pi f_i n / fs) (whole-
@@ -837,7 +846,7 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, sent: np.ndarray,
                 w = np.conj(sk) / mag
             zero = mag == 0
             if np.any(zero):                     # arg(0) = 0: the symbol keeps its own phasor a_k
-                w[zero] = np.exp(-2j * np.pi * np.mod(f[i] / sample_rate_hz * idx[k[zero], 0], 1.0)) \
+                w[zero] = np.exp(-2j * np.pi * np.mod(f[i] / sample_rate_hz * first[k[zero]], 1.0)) \
                     if contiguous else 1.0
             weights[i, j, k] = w
     sums = left(weights)                                                               # (2, 2, L)

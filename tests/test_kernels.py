@@ -213,6 +213,9 @@ def test_cross_branch_check_matches_corrcoef_and_norm():
           for j in (0, 1)]                                          # reference: numpy.corrcoef
     assert got.statistic == pytest.approx(max(zs), rel=1e-12)
     assert got.p_value == pytest.approx(min(1.0, 2 * stats.norm.sf(max(zs)) * 48), rel=1e-12)  # scipy.stats.norm
+    again = diagnostics.cross_branch_check(z, sent, n_tests=6,
+                                           correlations=diagnostics.output_correlations(z, sent))
+    assert (again.statistic, again.p_value) == (got.statistic, got.p_value)
 
 
 @pytest.mark.parametrize("contiguous", [True, False])
@@ -245,6 +248,10 @@ def test_measured_pulse_matches_direct_derotation(contiguous):
     np.testing.assert_allclose(got.pulse, np.array(pulse), rtol=0, atol=1e-13)     # rounding only
     assert got.noise_per_sample == pytest.approx(np.mean(np.concatenate(res)) / (L - 1), rel=1e-12)
     assert list(got.n_used) == [np.sum(sent == 0), np.sum(sent == 1)]
+    if contiguous:                                                  # first-sample form of the index
+        short = diagnostics.measured_pulse(rows, idx[:, 0], sent, f, fs, nv)
+        np.testing.assert_array_equal(short.pulse, got.pulse)
+        assert short.noise_per_sample == got.noise_per_sample
 
 
 def test_noise_correlation_and_idle_power_tails_match_scipy():
