@@ -64,21 +64,31 @@ class GroupMoments:
 
 
 def group_moments(z: np.ndarray, sent: np.ndarray, mask: np.ndarray | None = None) -> GroupMoments:
-    """Moments of ``|z_i|^2`` grouped by the tone sent (vectorised)."""
-    p = np.abs(np.asarray(z)) ** 2
+    """Moments of ``|z_i|^2`` grouped by the tone sent (vectorised).
+
+    The covariance is the unbiased sample covariance about the group means, as
+    ``numpy.cov`` computes it.
+    """
+    z = np.asarray(z)
+    power = np.empty((2, len(z)))                       # branch-major: one contiguous row per branch
+    for i in (0, 1):
+        power[i] = z[:, i].real ** 2 + z[:, i].imag ** 2
     sent = np.asarray(sent).astype(np.int64)
-    use = np.ones(len(p), bool) if mask is None else np.asarray(mask, bool)
+    use = None if mask is None else np.asarray(mask, bool)
     n = np.zeros(2)
     mean = np.zeros((2, 2))
     cov = np.zeros((2, 2, 2))
     for j in (0, 1):
-        pj = p[use & (sent == j)]
-        n[j] = len(pj)
-        if len(pj) >= 2:
-            mean[j] = pj.mean(axis=0)
-            cov[j] = np.cov(pj, rowvar=False)
-        elif len(pj) == 1:
-            mean[j] = pj[0]
+        sel = sent == j if use is None else use & (sent == j)
+        pj = np.compress(sel, power, axis=1)
+        k = pj.shape[1]
+        n[j] = k
+        if k >= 2:
+            mean[j] = pj.mean(axis=1)
+            d = pj - mean[j][:, None]
+            cov[j] = (d @ d.T) / (k - 1)
+        elif k == 1:
+            mean[j] = pj[:, 0]
     return GroupMoments(n=n, mean=mean, cov=cov)
 
 
@@ -237,6 +247,7 @@ def phase_continuity(z: np.ndarray, tone_index: np.ndarray) -> float:
     same = np.flatnonzero(b[1:] == b[:-1]) + 1
     if same.size < 4:
         return float("nan")
-    zz = z[same, b[same]] * np.conj(z[same - 1, b[same]])
+    zs = z[np.arange(len(b)), b]                 # the branch of the tone sent, per symbol
+    zz = zs[same] * np.conj(zs[same - 1])        # same tone in both symbols of each pair
     den = np.sum(np.abs(zz))
     return float(np.abs(np.sum(zz)) / den) if den > 0 else float("nan")

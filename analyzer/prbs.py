@@ -532,6 +532,43 @@ class _Aligner:
     def error_rate(self, a: int, lo: int, hi: int) -> float:
         return float(np.count_nonzero(self.bits[lo:hi] != self.expected(a, lo, hi))) / (hi - lo)
 
+    def _vote_scores(self, ks: np.ndarray, off: np.ndarray, span: int) -> np.ndarray:
+        """Error rate of each vote ``(k, offset)`` over the ``span`` bits after its window.
+
+        Bits past the end are not counted; a vote with fewer than ``span // 2``
+        bits left scores 1.  Error-free windows all vote for the same offset, so
+        there are usually far fewer distinct offsets than votes: then the error
+        indicator of each distinct offset is summed once over the stretch the
+        votes cover and every vote's count is a difference of two running sums.
+        Otherwise each vote's ``span`` bits are compared directly.  Both give
+        the same integer counts.
+        """
+        n_bits = self.bits.size
+        first = ks + self.seed                       # first bit scored by each vote
+        n_in = np.clip(n_bits - first, 0, span)
+        u_off, which = np.unique(off, return_inverse=True)
+        base = int(first.min())
+        end = int(min(n_bits, first.max() + span))
+        width = max(end - base, 0)
+        if u_off.size * width <= ks.size * span:
+            m = np.arange(base, end, dtype=np.int64)
+            err = self.bits[None, base:end] != self.seq[(m[None, :] + u_off[:, None]) % self.period]
+            run = np.zeros((u_off.size, width + 1), dtype=np.int64)
+            np.cumsum(err, axis=1, out=run[:, 1:])
+            start = np.minimum(first - base, width)
+            miss = run[which, start + n_in] - run[which, start]
+        else:
+            miss = np.empty(ks.size, dtype=np.int64)
+            step = max(1, (1 << 20) // span)        # bounded memory per block
+            lags = np.arange(span, dtype=np.int64)[None, :]
+            for b0 in range(0, ks.size, step):
+                cols = first[b0:b0 + step, None] + lags
+                inside = cols < n_bits
+                got = self.bits[np.minimum(cols, n_bits - 1)]
+                want = self.seq[(cols + off[b0:b0 + step, None]) % self.period]
+                miss[b0:b0 + step] = ((got != want) & inside).sum(axis=1)
+        return np.where(n_in >= max(1, span // 2), miss / np.maximum(n_in, 1), 1.0)
+
     def candidates(self, lo: int, hi: int, span: int) -> list[tuple[int, int]]:
         """Up to ``_N_CANDIDATES`` alignments suggested by bits ``lo:hi``.
 
@@ -555,18 +592,7 @@ class _Aligner:
             if ks.size == 0:
                 return []
             off = (pos[ok].astype(np.int64) - ks) % self.period
-            score = np.empty(ks.size)
-            step = max(1, (1 << 20) // span)            # bounded memory per block
-            lags = np.arange(span, dtype=np.int64)[None, :]
-            for b0 in range(0, ks.size, step):
-                cols = ks[b0:b0 + step, None] + self.seed + lags
-                inside = cols < n_bits
-                got = self.bits[np.minimum(cols, n_bits - 1)]
-                want = self.seq[(cols + off[b0:b0 + step, None]) % self.period]
-                n_in = inside.sum(axis=1)
-                miss = ((got != want) & inside).sum(axis=1)
-                score[b0:b0 + step] = np.where(n_in >= max(1, span // 2),
-                                               miss / np.maximum(n_in, 1), 1.0)
+            score = self._vote_scores(ks, off, span)
             order = np.lexsort((ks, off))               # by offset, then position
             off_s, ks_s, score_s = off[order], ks[order], score[order]
             starts = np.flatnonzero(np.r_[True, off_s[1:] != off_s[:-1]])

@@ -390,13 +390,30 @@ def _required_db_scalar(ber: float, model: LinkModel) -> float:
         return math.inf
     if model.tone_correlation >= 1.0:
         return math.inf          # BER is 1/2 at every Eb/N0
-    log_target = math.log(ber)
     tiny = np.finfo(float).tiny
+    form = model.closed_form
+    if ber >= tiny:
+        # ideal orthogonal tones: Pb = 1/2 exp(-x/2) inverts to x = -2 ln(2 Pb)
+        x_orth = -2.0 * math.log(2.0 * ber)
+        if form == "orthogonal":
+            return 10.0 * math.log10(x_orth)
+    log_target = math.log(ber)
 
     def f(x_db: float) -> float:
         p = float(ber_expected(10.0 ** (x_db / 10.0), model))
         return math.log(max(p, tiny)) - log_target
 
+    if ber >= tiny:
+        # Bracket from the closed forms: the orthogonal equal-energy link needs the
+        # least Eb/N0; with rho and the energy ratio r >= 1, Pb <= 1/2 exp(-x (1-|rho|) / (1+r))
+        # (the Marcum series of ber_correlated with every (a/b)^k replaced by 1), so
+        # x_orth (1+r) / (2 (1-|rho|)) is enough.  A small margin keeps the signs strict.
+        rho = model.tone_correlation if model.correlated else 0.0
+        r = 10.0 ** (abs(model.imbalance_db) / 10.0) if model.unequal else 1.0
+        lo = 10.0 * math.log10(x_orth) - 1e-3
+        hi = 10.0 * math.log10(x_orth * (1.0 + r) / (2.0 * (1.0 - rho))) + 1e-3
+        if f(lo) > 0.0 and f(hi) < 0.0:
+            return optimize.brentq(f, lo, hi, xtol=1e-12, rtol=4 * np.finfo(float).eps, maxiter=200)
     lo, hi = -10.0, 20.0
     while f(lo) <= 0.0:
         lo -= 20.0
@@ -433,17 +450,26 @@ def ebn0_required_db(ber, model: LinkModel = LinkModel()):
 
     Notes
     -----
-    ``ber_expected`` decreases strictly with Eb/N0 for ``|rho| < 1``; the root of
-    ``log ber_expected(10^(x/10)) = log ber`` is bracketed by stepping in dB and
-    found with Brent's method to about 1e-12 dB.
+    For the ``"orthogonal"`` closed form the inverse is exact:
+    ``Eb/N0 = -2 ln(2 Pb)``.  Otherwise ``ber_expected`` decreases strictly with
+    Eb/N0 for ``|rho| < 1``; the root of ``log ber_expected(10^(x/10)) = log ber``
+    is found with Brent's method to about 1e-12 dB, bracketed below by the
+    orthogonal solution ``x_o`` and above by ``x_o (1 + r) / (2 (1 - |rho|))``
+    (``r`` the tone energy ratio), where ``Pb <= 1/2 exp(-x (1 - |rho|) / (1 + r))``;
+    if that bracket fails (underflow) it is found by stepping in dB.
 
     References
     ----------
     .. [1] R. P. Brent, *Algorithms for Minimization without Derivatives*,
        Prentice Hall, 1973 (root finder) -- from memory.
+    .. [2] J. G. Proakis and M. Salehi, *Digital Communications*, McGraw-Hill,
+       noncoherent orthogonal BFSK, ``Pb = 1/2 exp(-Eb/2N0)`` -- from memory.
     """
+    arr = np.asarray(ber, dtype=float)
+    if arr.ndim == 0:
+        return np.float64(_required_db_scalar(float(arr), model))
     vec = np.vectorize(lambda p: _required_db_scalar(float(p), model), otypes=[float])
-    return vec(np.asarray(ber, dtype=float))[()]
+    return vec(arr)[()]
 
 
 # ---------------------------------------------------------------------------
@@ -475,6 +501,17 @@ def clopper_pearson(errors, bits, level: float = 0.95):
        limits illustrated in the case of the binomial", *Biometrika*, 1934
        -- from memory.
     """
+    if np.ndim(errors) == 0 and np.ndim(bits) == 0:
+        # one count: the same interval without the array machinery
+        k, n = float(errors), float(bits)
+        if n <= 0 or k < 0 or k > n:
+            raise ValueError("clopper_pearson: need 0 <= errors <= bits and bits > 0")
+        if not (0.0 < level < 1.0):
+            raise ValueError("clopper_pearson: level must be in (0, 1)")
+        alpha = 1.0 - level
+        lo = special.betaincinv(k, n - k + 1.0, alpha / 2.0) if k > 0 else 0.0
+        hi = special.betaincinv(k + 1.0, n - k, 1.0 - alpha / 2.0) if k < n else 1.0
+        return np.float64(lo), np.float64(hi)
     k, n = np.broadcast_arrays(np.asarray(errors, dtype=float), np.asarray(bits, dtype=float))
     if np.any(n <= 0) or np.any(k < 0) or np.any(k > n):
         raise ValueError("clopper_pearson: need 0 <= errors <= bits and bits > 0")

@@ -3,16 +3,24 @@
 Each kernel replaces a slower general routine on the hot path; here it is held
 to that routine: numpy.exp for the block oscillator, scipy.signal.zoom_fft for
 the narrow-band spectrum, scipy.stats.kstest / scipy.stats.rice for the
-envelope checks, and a direct per-window sum for the window energies.
+envelope checks, and a direct per-window sum for the window energies.  The
+model checks computed by hand are held to the scipy.stats routine each one
+reproduces: scipy.stats.normaltest, scipy.stats.f_oneway, scipy.stats.kstest
+and scipy.stats.norm, with numpy.corrcoef and numpy.polyfit for correlations
+and slopes, the grouped branch moments to numpy.mean / numpy.cov, and the
+measured pulse to its per-entry definition (numpy.exp).
 """
 
 from __future__ import annotations
+
+import warnings
 
 import numpy as np
 import pytest
 from scipy import signal, stats
 
-from analyzer import acquire, branches, diagnostics
+from analyzer import acquire, branches, diagnostics, estimate
+from analyzer.estimate import GroupMoments
 
 
 @pytest.mark.parametrize("freq, first, count", [(12345.678, 0, 1000), (-0.31e6, 987_654_321, 5000),
@@ -119,3 +127,215 @@ def test_lag_products_match_their_definition():
     # reference: the defining double sum R[l] = sum_k sum_m r[k, m+l] conj(r[k, m]), written out
     ref = np.array([sum(np.sum(r[k, l:] * np.conj(r[k, :12 - l])) for k in range(50)) for l in range(12)])
     np.testing.assert_allclose(acquire.lag_products(r), ref, rtol=1e-12, atol=1e-9)
+# --------------------------------------------------------------------------- hand-computed scipy.stats tests
+def _samples():
+    rng = np.random.default_rng(42)
+    return {"normal": rng.standard_normal(8000), "exponential": rng.exponential(size=3000),
+            "student-t": rng.standard_t(5, size=500), "uniform": rng.uniform(size=200),
+            "small": rng.standard_normal(8), "shifted": 1e6 + rng.standard_normal(4000)}
+
+
+@pytest.mark.parametrize("name", list(_samples()))
+def test_normal_test_matches_scipy_normaltest(name):
+    x = _samples()[name]
+    ref = stats.normaltest(x)                                      # reference: scipy.stats.normaltest
+    k2, p = diagnostics.normal_test(x)
+    # the same formulas on the same moments: rounding only (moments summed in another order)
+    assert k2 == pytest.approx(ref.statistic, rel=1e-9, abs=1e-12)
+    assert p == pytest.approx(ref.pvalue, rel=1e-8, abs=1e-300)
+
+
+def test_normal_test_degenerate_samples_are_nan_like_scipy():
+    for x in (np.ones(50), np.arange(7.0)):
+        with warnings.catch_warnings():                            # scipy warns on both
+            warnings.simplefilter("ignore")
+            ref = stats.normaltest(x)                              # reference: scipy.stats.normaltest
+        assert np.isnan(ref.statistic) and np.isnan(ref.pvalue)
+        k2, p = diagnostics.normal_test(x)
+        assert np.isnan(k2) and np.isnan(p)
+
+
+@pytest.mark.parametrize("sizes", [(32, 32, 33, 32), (500, 499, 500, 500, 500, 499, 500, 500), (40, 90)])
+def test_f_test_oneway_matches_scipy_f_oneway(sizes):
+    rng = np.random.default_rng(sum(sizes))
+    groups = [rng.normal(0.05 * i, 1.0 + 0.1 * i, size=s) for i, s in enumerate(sizes)]
+    ref = stats.f_oneway(*groups)                                  # reference: scipy.stats.f_oneway
+    f, p = diagnostics.f_test_oneway(np.concatenate(groups), np.array(sizes))
+    assert f == pytest.approx(ref.statistic, rel=1e-10)            # two-pass sums: rounding only
+    assert p == pytest.approx(ref.pvalue, rel=1e-9, abs=1e-300)
+
+
+def test_f_test_oneway_constant_groups_like_scipy():
+    cases = [[np.full(5, 1.0), np.full(4, 2.0)], [np.full(5, 3.0), np.full(4, 3.0)]]
+    for groups in cases:
+        with warnings.catch_warnings():                            # scipy warns on both
+            warnings.simplefilter("ignore")
+            ref = stats.f_oneway(*groups)                          # reference: scipy.stats.f_oneway
+        f, p = diagnostics.f_test_oneway(np.concatenate(groups), np.array([len(g) for g in groups]))
+        np.testing.assert_equal([f, p], [ref.statistic, ref.pvalue])   # inf / 0 and nan / nan
+
+
+def test_ebn0_trend_against_f_oneway_and_polyfit():
+    rng = np.random.default_rng(3)
+    n = 1000
+    sent = rng.integers(0, 2, n)
+    z = (rng.standard_normal((n, 2)) + 1j * rng.standard_normal((n, 2))) * 0.3
+    amp = np.linspace(1.0, 1.3, n)                                 # a slow power ramp
+    z[np.arange(n), sent] += amp * np.exp(1j * rng.uniform(0, 2 * np.pi, n))
+    tr = diagnostics.ebn0_trend(z, sent, 1.25, blocks=8)
+    p = np.abs(z) ** 2
+    on, off = p[np.arange(n), sent], p[np.arange(n), 1 - sent]
+    edges = np.linspace(0, n, 9).astype(int)
+    blocks = [(on[a:b], off[a:b]) for a, b in zip(edges[:-1], edges[1:])]
+    eb = [10 * np.log10((np.mean(a) - np.mean(b)) / np.mean(b) * 1.25) for a, b in blocks]
+    np.testing.assert_allclose(tr.block_ebn0_db, eb, rtol=1e-12)                   # direct definition
+    ref = stats.f_oneway(*[a - b for a, b in blocks])               # reference: scipy.stats.f_oneway
+    assert tr.p_value == pytest.approx(ref.pvalue, rel=1e-8, abs=1e-300)
+    slope = np.polyfit(np.arange(8), eb, 1)[0]                      # reference: numpy.polyfit
+    assert tr.slope_db_per_block == pytest.approx(slope, rel=1e-10)
+    assert tr.flagged == (ref.pvalue < diagnostics.FLAG_LEVEL)
+
+
+@pytest.mark.parametrize("nu, sigma", [(0.001, 1.0), (0.7, 1.0), (2.0, 0.5), (6.0, 1.3), (30.0, 2.0)])
+def test_envelope_cdf_hermite_bound(nu, sigma):
+    # the stated interpolation bound, 1.2e-7, against scipy.stats.rice.cdf at points between the grid nodes
+    rng = np.random.default_rng(int(nu * 10))
+    r = np.abs(nu + sigma * (rng.standard_normal(3000) + 1j * rng.standard_normal(3000)) / np.sqrt(2))
+    ref = stats.rice(nu / sigma, scale=sigma).cdf(r)               # reference: scipy.stats.rice
+    np.testing.assert_allclose(diagnostics.envelope_cdf(r, nu, sigma), ref, rtol=0, atol=1.2e-7)
+
+
+def test_output_correlations_match_numpy_corrcoef():
+    rng = np.random.default_rng(11)
+    n = 700
+    sent = (rng.uniform(size=n) < 0.4).astype(np.uint8)
+    mix = np.array([[1.0, 0.3, 0.0, 0.1], [0.0, 1.0, 0.2, 0.0], [0.0, 0.0, 1.0, 0.5], [0.0, 0.0, 0.0, 1.0]])
+    iq = rng.standard_normal((n, 4)) @ mix + np.array([3.0, -1.0, 0.5, 2.0])
+    z = np.column_stack([iq[:, 0] + 1j * iq[:, 1], iq[:, 2] + 1j * iq[:, 3]])
+    got = diagnostics.output_correlations(z, sent)
+    for j in (0, 1):
+        ref = np.corrcoef(iq[sent == j], rowvar=False)              # reference: numpy.corrcoef
+        np.testing.assert_allclose(got[j], ref, rtol=0, atol=1e-13)
+    few = diagnostics.output_correlations(z[:4], np.array([0, 0, 0, 1]))
+    assert np.all(np.isnan(few[1])) and np.allclose(few[0], np.corrcoef(iq[:3], rowvar=False), atol=1e-13)
+
+
+def test_model_checks_match_scipy_stats():
+    rng = np.random.default_rng(5)
+    n, g, s2 = 3000, np.array([2.0, 2.2]), np.array([0.5, 0.45])    # s2: variance of one real output
+    sent = rng.integers(0, 2, n)
+    sig = np.sqrt(s2)
+    z = (rng.standard_normal((n, 2)) + 1j * rng.standard_normal((n, 2))) * sig
+    z[np.arange(n), sent] += g[sent] * np.exp(1j * rng.uniform(0, 2 * np.pi, n))
+    got = {c.name: c for c in diagnostics.model_checks(z, sent, g, s2, 0.0, n_tests=6)}
+    # references: scipy.stats.normaltest, scipy.stats.kstest with scipy.stats.rice / rayleigh,
+    # numpy.corrcoef and scipy.stats.norm, each with the documented Bonferroni factors
+    idle = np.concatenate([np.r_[(z[sent != i, i] / sig[i]).real, (z[sent != i, i] / sig[i]).imag] for i in (0, 1)])
+    ref = stats.normaltest(idle)
+    c = got["noise-branch Gaussianity"]
+    assert c.statistic == pytest.approx(ref.statistic, rel=1e-9)
+    assert c.p_value == pytest.approx(min(1.0, ref.pvalue * 6), rel=1e-8)
+    env = np.abs(z)
+    on = [stats.kstest(env[sent == i, i], stats.rice(g[i] / sig[i], scale=sig[i]).cdf) for i in (0, 1)]
+    off = [stats.kstest(env[sent != i, i], stats.rayleigh(scale=sig[i]).cdf) for i in (0, 1)]
+    for name, refs in (("Rician fit, tone sent", on), ("Rayleigh fit, tone not sent", off)):
+        c = got[name]
+        assert c.statistic == pytest.approx(max(r.statistic for r in refs), abs=2e-7)   # CDF bound 1.2e-7
+        assert c.p_value == pytest.approx(min(1.0, min(r.pvalue for r in refs) * 12), rel=1e-4)
+    r_iq = [np.corrcoef(z[sent != i, i].real, z[sent != i, i].imag)[0, 1] for i in (0, 1)]
+    zstat = max(abs(np.arctanh(r)) for r in r_iq) * np.sqrt(min(np.sum(sent == 0), np.sum(sent == 1)) - 3)
+    c = got["I/Q independence"]
+    assert c.statistic == pytest.approx(zstat, rel=1e-10)
+    assert c.p_value == pytest.approx(min(1.0, 2 * stats.norm.sf(zstat) * 12), rel=1e-10)
+
+
+def test_cross_branch_check_matches_corrcoef_and_norm():
+    rng = np.random.default_rng(8)
+    n = 900
+    sent = rng.integers(0, 2, n)
+    z = rng.standard_normal((n, 2)) + 1j * rng.standard_normal((n, 2))
+    z[:, 1] += 0.1 * z[:, 0].real                                   # a little tone-0 / tone-1 correlation
+    got = diagnostics.cross_branch_check(z, sent, n_tests=6)
+    iq = np.column_stack([z[:, 0].real, z[:, 0].imag, z[:, 1].real, z[:, 1].imag])
+    zs = [np.abs(np.corrcoef(iq[sent == j], rowvar=False)[:2, 2:]).max() * np.sqrt(np.sum(sent == j))
+          for j in (0, 1)]                                          # reference: numpy.corrcoef
+    assert got.statistic == pytest.approx(max(zs), rel=1e-12)
+    assert got.p_value == pytest.approx(min(1.0, 2 * stats.norm.sf(max(zs)) * 48), rel=1e-12)  # scipy.stats.norm
+    again = diagnostics.cross_branch_check(z, sent, n_tests=6,
+                                           correlations=diagnostics.output_correlations(z, sent))
+    assert (again.statistic, again.p_value) == (got.statistic, got.p_value)
+
+
+@pytest.mark.parametrize("contiguous", [True, False])
+def test_measured_pulse_matches_direct_derotation(contiguous):
+    # reference: the definition in measured_pulse's notes evaluated entry by entry with numpy.exp
+    rng = np.random.default_rng(21 + contiguous)
+    fs, f, n, L = 80000.0, (-2500.0, 2500.0), 400, 16
+    sent = rng.integers(0, 2, n)
+    first = 100 + 16 * np.arange(n) + rng.integers(0, 2, n)
+    idx = first[:, None] + np.arange(L)[None, :]
+    if not contiguous:
+        idx[:, L // 2:] += 1                                        # one sample skipped inside each window
+    ramp = np.minimum(1.0, (np.arange(L) + 1) / 4.0)                 # a shaped pulse
+    tone = np.asarray(f)[sent][:, None]
+    rows = ramp * np.exp(2j * np.pi * tone * idx / fs + 1j * rng.uniform(0, 2 * np.pi, (n, 1)))
+    rows = rows + 0.2 * (rng.standard_normal((n, L)) + 1j * rng.standard_normal((n, L)))
+    nv = np.array([0.08, 0.08])
+    got = diagnostics.measured_pulse(rows, idx, sent, f, fs, nv)
+    even = np.arange(L) % 2 == 0
+    pulse, res = [], []
+    for i in (0, 1):
+        k = np.flatnonzero(sent == i)
+        xk = rows[k] * np.exp(-2j * np.pi * f[i] * idx[k] / fs)
+        ph_e = np.exp(-1j * np.angle(xk[:, even].sum(axis=1)))
+        ph_o = np.exp(-1j * np.angle(xk[:, ~even].sum(axis=1)))
+        m = (xk * np.where(even[None, :], ph_o[:, None], ph_e[:, None])).mean(axis=0)
+        pulse.append(m)
+        u = m / np.linalg.norm(m)
+        res.append(np.sum(np.abs(xk) ** 2, axis=1) - np.abs(xk @ np.conj(u)) ** 2)
+    np.testing.assert_allclose(got.pulse, np.array(pulse), rtol=0, atol=1e-13)     # rounding only
+    assert got.noise_per_sample == pytest.approx(np.mean(np.concatenate(res)) / (L - 1), rel=1e-12)
+    assert list(got.n_used) == [np.sum(sent == 0), np.sum(sent == 1)]
+    if contiguous:                                                  # first-sample form of the index
+        short = diagnostics.measured_pulse(rows, idx[:, 0], sent, f, fs, nv)
+        np.testing.assert_array_equal(short.pulse, got.pulse)
+        assert short.noise_per_sample == got.noise_per_sample
+
+
+def test_noise_correlation_and_idle_power_tails_match_scipy():
+    rng = np.random.default_rng(13)
+    z = rng.standard_normal((300, 2)) + 1j * rng.standard_normal((300, 2))
+    z[:, 1] += 0.2 * z[:, 0]
+    rho = 0.05 + 0.02j
+    got = diagnostics.noise_correlation(z, rho)
+    a, b = z[:, 0], z[:, 1]
+    r = np.sum(a * np.conj(b)) / np.sqrt(np.sum(np.abs(a) ** 2) * np.sum(np.abs(b) ** 2))   # direct definition
+    assert abs(got.value - r) < 1e-14
+    sd = (1 - abs(rho) ** 2) / np.sqrt(300)
+    assert got.p_value == pytest.approx(stats.chi2.sf(2 * (abs(r - rho) / sd) ** 2, 2), rel=1e-12)  # scipy.stats.chi2
+    mom = GroupMoments(n=np.array([400.0, 380.0]), mean=np.array([[2.0, 0.11], [0.1, 2.1]]),
+                       cov=np.zeros((2, 2, 2)))
+    chk = diagnostics.idle_power_check(mom, np.array([0.1, 0.1]), 0.09, 0.0, n_tests=6)
+    zs = [abs(0.1 / 0.09 - 1) * np.sqrt(380.0) * 0.09 / 0.1, abs(0.1 / 0.09 - 1) * np.sqrt(400.0) * 0.09 / 0.11]
+    assert chk.statistic == pytest.approx(max(zs), rel=1e-12)                       # documented statistic
+    assert chk.p_value == pytest.approx(min(1.0, 2 * stats.norm.sf(max(zs)) * 12), rel=1e-12)  # scipy.stats.norm
+
+
+def test_group_moments_match_numpy_mean_and_cov():
+    rng = np.random.default_rng(17)
+    n = 900
+    sent = rng.integers(0, 2, n)
+    mask = rng.uniform(size=n) < 0.8
+    z = rng.standard_normal((n, 2)) + 1j * rng.standard_normal((n, 2))
+    z[np.arange(n), sent] += 2.0
+    for m in (None, mask):
+        got = estimate.group_moments(z, sent, m)
+        use = np.ones(n, bool) if m is None else m
+        for j in (0, 1):
+            p = np.abs(z[use & (sent == j)]) ** 2
+            assert got.n[j] == len(p)
+            np.testing.assert_allclose(got.mean[j], p.mean(axis=0), rtol=1e-13)          # numpy.mean
+            np.testing.assert_allclose(got.cov[j], np.cov(p, rowvar=False), rtol=1e-12)  # reference: numpy.cov
+    one = estimate.group_moments(z[:3], np.array([0, 0, 1]))
+    np.testing.assert_allclose(one.mean[1], np.abs(z[2]) ** 2, rtol=1e-14)
+    assert one.n[1] == 1 and np.all(one.cov[1] == 0)

@@ -263,6 +263,24 @@ def test_round_trip_and_monotone(model):
     assert np.all(np.diff(req) < 0)
 
 
+@pytest.mark.parametrize("model", [LinkModel(0.95, 10.0), LinkModel(0.999, 0.0), LinkModel(0.0, 20.0),
+                                   LinkModel(0.021, 0.11)], ids=str)
+def test_round_trip_far_from_orthogonal(model):
+    # Reference: exact inverse -- ebn0_required_db(ber_expected(x)) must return x, here for
+    # strongly correlated or unequal tones (tones far from the orthogonal closed form, whose
+    # inverse -2 ln(2 Pb) bounds the root from below) and just past both thresholds.
+    # Tolerance 1e-9 dB over BER 1e-40 .. 0.3 (x_db >= -5, where the root is well conditioned).
+    x_db = np.linspace(-5.0, 45.0, 26)
+    ber = theory.ber_expected(db2lin(x_db), model)
+    use = (ber > 1e-40) & (ber < 0.3)
+    assert use.sum() >= 8
+    back = theory.ebn0_required_db(ber[use], model)
+    np.testing.assert_allclose(back, x_db[use], rtol=0, atol=1e-9)
+    # scalar input gives the same value as the array path (numpy scalar, not a 0-d array)
+    one = theory.ebn0_required_db(float(ber[use][0]), model)
+    assert isinstance(one, np.float64) and one == pytest.approx(x_db[use][0], abs=1e-9)
+
+
 def test_required_ebn0_orthogonal_inverse_and_conventions():
     # Reference: algebraic inverse of 1/2 exp(-x/2): x = -2 ln(2 Pb) (Proakis & Salehi,
     # from memory).  Tolerance 1e-9 dB.  Conventions: nan for BER >= 0.5, +inf for BER <= 0.
