@@ -148,6 +148,11 @@ def symbol_matrix(x: np.ndarray, x_start: int, grid: SymbolGrid) -> tuple[np.nda
     return _windows(x, first - x_start, grid.window), n
 
 
+def symbol_rows(x: np.ndarray, x_start: int, grid: SymbolGrid) -> np.ndarray:
+    """The ``rows`` of :func:`symbol_matrix` alone (no index matrix)."""
+    return _windows(x, grid.first_samples - x_start, grid.window)
+
+
 def _windows(x: np.ndarray, local_first: np.ndarray, window: int) -> np.ndarray:
     """Rows ``x[s : s + window]`` for each ``s`` of ``local_first`` (a copy, one row at a time)."""
     if local_first.size and (local_first.min() < 0 or local_first.max() + window > len(x)):

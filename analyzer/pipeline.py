@@ -293,7 +293,7 @@ def _ber_count(ec: prbs.ErrorCount, low_is_one: bool) -> BerCount:
 
 
 def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
-    return branches.symbol_matrix(x, x_start, grid)[0]
+    return branches.symbol_rows(x, x_start, grid)
 
 
 # --------------------------------------------------------------------------- one burst
@@ -390,8 +390,18 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
 
     # pattern sync on the last decisions (made with the tones before their last
     # refinement, which moved them by less than SETTLED_TONE_SHIFT or twice)
+    counted: dict = {}
+
+    def count(bits, reference):
+        """``_count``, once per distinct (decisions, reference): decisions often survive a pass unchanged."""
+        key = (id(reference), bits.tobytes())
+        if key not in counted:
+            counted.clear()
+            counted[key] = (reference, _count(bits, reference))
+        return counted[key][1]
+
     ref = _resolve_reference(opts, dec, bits_text)
-    ec, low_one = _count(dec, ref)
+    ec, low_one = count(dec, ref)
     synced = ec is not None and ec.synced and ec.bits > 0
     if synced:
         # with the pattern known, estimate the tones once more from the symbols
@@ -408,14 +418,14 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     scale = grid.samples_per_symbol / grid.window
     if not synced:
         ref = _resolve_reference(opts, dec, bits_text)   # look again with the final tones and timing
-    ec, low_one = _count(dec, ref)
+    ec, low_one = count(dec, ref)
     # burst edges to the symbol: extend or trim by the presence likelihood of each edge symbol
     edged = _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref)
     if edged is not None:
         grid = edged
         out = branches.correlate(x, x_start, grid, tones, fs)
         dec = decide.square_law(out.z)
-        ec, low_one = _count(dec, ref)
+        ec, low_one = count(dec, ref)
     if ec is not None and ec.synced and ec.bits > 0:
         sent = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
         mask = ec.counted
@@ -429,7 +439,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     if opts.decision == "likelihood" and np.all(stats.gain_sq > 0):
         s2 = float(np.mean(stats.noise_var_complex))
         dec = decide.likelihood_ratio(out.z, tuple(stats.signal_gain), s2)
-        ec, low_one = _count(dec, ref)
+        ec, low_one = count(dec, ref)
         if ec is not None and ec.synced and ec.bits > 0:
             ber = _ber_count(ec, low_one)
 
@@ -439,8 +449,9 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     loss = None
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
-    p = float(np.mean(np.abs(_rows(x, x_start, grid)) ** 2)) / full_scale
-    diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale)
+    rows = _rows(x, x_start, grid)
+    p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
+    diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows)
     return BurstResult(
         index=index, grid=grid, tones_hz=(float(tones[0]), float(tones[1])),
         symbol_rate_hz=float(fs / grid.samples_per_symbol), timing_quality=float(tm.line_snr),
@@ -451,14 +462,14 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         **diag)
 
 
-def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale) -> dict:
+def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows) -> dict:
     """Receiver-model diagnostics of one burst (the BurstResult fields they fill)."""
     checks = diagnostics.model_checks(out.z, sent, stats.signal_gain, stats.noise_var, abs(rho), n_tests=6)
+    corr = diagnostics.output_correlations(out.z, sent)
     if abs(rho) < 0.05:
-        checks.append(diagnostics.cross_branch_check(out.z, sent, n_tests=6))
+        checks.append(diagnostics.cross_branch_check(out.z, sent, n_tests=6, correlations=corr))
     trend = diagnostics.ebn0_trend(out.z, sent, scale)
-    rows, idx = branches.symbol_matrix(x, x_start, grid)
-    pulse = diagnostics.measured_pulse(rows, idx, sent, tones, fs, stats.noise_var_complex)
+    pulse = diagnostics.measured_pulse(rows, grid.first_samples, sent, tones, fs, stats.noise_var_complex)
     checks.append(diagnostics.idle_power_check(mom, stats.noise_var_complex, pulse.noise_per_sample, abs(rho)))
     checks = [c for c in checks if c is not None]
     leak = diagnostics.leakage(mom, pulse.noise_per_sample)
@@ -470,8 +481,7 @@ def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, be
     blind = diagnostics.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if ok else None
     gain = diagnostics.decision_gain(stats.ebn0, stats.imbalance_db) if ok else None
     return dict(checks=tuple(checks), trend=trend, loss_parts=parts, blind_ber=blind, decision_gain=gain,
-                pulse=pulse, leakage=leak, noise_correlation=ncor,
-                output_correlation=diagnostics.output_correlations(out.z, sent))
+                pulse=pulse, leakage=leak, noise_correlation=ncor, output_correlation=corr)
 
 
 EDGE_SYMBOLS = 4   # symbols examined on each side of each burst edge
