@@ -441,7 +441,8 @@ def noncoherent_frequency(rows: np.ndarray, sample_rate_hz: float, centre_hz: fl
 
     The objective is evaluated exactly from the lag products (no FFT grid, so no
     interpolation bias), first on a grid of 1/16 of the lobe width, then
-    refined by a bounded scalar search.
+    refined by Newton's method on its exact derivatives (a bounded scalar
+    search where the objective is not concave there).
 
     References
     ----------
@@ -461,7 +462,29 @@ def noncoherent_frequency(rows: np.ndarray, sample_rate_hz: float, centre_hz: fl
     lo, hi = grid[max(i - 1, 0)], grid[min(i + 1, len(grid) - 1)]
     if hi <= lo:
         return float(grid[i])
-    res = minimize_scalar(lambda f: -_periodogram_from_lags(R, f, sample_rate_hz)[0],
+    # Newton's method on P'(f) = 0 from the grid's best point: P is a trigonometric
+    # polynomial, so its derivatives are exact sums over the lags
+    lags = np.arange(1, L)
+    w = 2 * np.pi * lags / sample_rate_hz
+    f = float(grid[i])
+    for _ in range(8):
+        ph = R[1:] * np.exp(-1j * w * f)
+        d1 = 2.0 * float(np.sum(w * ph.imag))            # dP/df
+        d2 = -2.0 * float(np.sum(w * w * ph.real))       # d2P/df2
+        if not d2 < 0:
+            break
+        step_f = -d1 / d2
+        f_new = min(max(f + step_f, lo), hi)
+        if abs(f_new - f) <= 1e-9 * step:
+            f = f_new
+            break
+        f = f_new
+    else:
+        f = None
+    if f is not None and d2 < 0 and lo < f < hi:
+        return float(f)
+    # not concave at the start, or the optimum sits on the bracket: a bounded search
+    res = minimize_scalar(lambda v: -_periodogram_from_lags(R, v, sample_rate_hz)[0],
                           bounds=(lo, hi), method="bounded", options={"xatol": 1e-6 * step})
     return float(res.x)
 

@@ -310,7 +310,7 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: f
     out = branches.correlate(x, x_start, grid, tones, fs)
     energy = np.sum(np.abs(out.z) ** 2, axis=1)
     segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=min_symbols)
-    span = _Span(tm, et, len(segs) == 1)
+    span = _Span(tm, et, len(segs) == 1, out)
     return [(grid, f, s, span) for f, s in segs]
 
 
@@ -321,6 +321,7 @@ class _Span:
     timing: acquire.TimingEstimate
     energy: branches.EnergyTrace
     single: bool              # the span holds one burst only
+    outputs: branches.BranchOutputs | None = None     # on the span's grid, with the span's tones
 
 
 #: Tones that moved by less than this fraction of the symbol rate keep the
@@ -367,7 +368,16 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     # Its timing comes from the instants the tone changes (a whole-symbol
     # energy metric flattens there); with a new phase per symbol the
     # receiver's own energy metric is the sharper one.
-    out = branches.correlate(x, x_start, grid, tones, fs)
+    out = None
+    if span is not None and span.outputs is not None and span.outputs.tones_hz == tones:
+        # the span's own correlation already covers these symbols when they lie on its grid
+        g0 = span.outputs.grid
+        idx = np.arange(first, stop)
+        if stop <= g0.n_symbols and grid.window == g0.window and np.array_equal(
+                grid.first_samples, g0.first_samples[first:stop]):
+            out = branches.BranchOutputs(z=span.outputs.z[idx], tones_hz=tones, grid=grid)
+    if out is None:
+        out = branches.correlate(x, x_start, grid, tones, fs)
     dec = decide.square_law(out.z)
     continuity = estimate.phase_continuity(out.z, dec)
     continuous = bool(np.isfinite(continuity) and continuity > 0.5)
