@@ -207,7 +207,7 @@ class BurstSpan:
 
 
 def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
-                max_rel_spread: float = 0.08) -> tuple[list[BurstSpan], float]:
+                max_rel_spread: float = 0.08, track: np.ndarray | None = None) -> tuple[list[BurstSpan], float]:
     """Find candidate bursts as runs of frames whose band power stands above the noise floor.
 
     Parameters
@@ -225,6 +225,9 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
         The moving average is made long enough that the relative spread of the
         noise trace is at most this (so weak bursts are found), but never
         longer than a quarter of the shortest burst sought.
+    track : numpy.ndarray, optional
+        The caller's :func:`floor_track` of this trace, when it has one (with
+        out-of-band noise; otherwise the floor comes from the trace itself).
 
     Returns
     -------
@@ -246,7 +249,8 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     ps = np.convolve(p, np.ones(k_floor) / k_floor, mode="same")
     rel = 1.0 / np.sqrt(b * k_floor)
     floor = np.percentile(ps, 20) / max(1.0 - 0.84 * rel, 0.5)
-    track = floor_track(trace, floor)
+    if track is None or len(track) != p.size or not np.all(np.isfinite(track)):
+        track = floor_track(trace, floor)
     floor = float(np.median(track))
     # Several moving-average lengths: short ones see short strong bursts, long
     # ones see long weak bursts; a run found at length k must last >= k frames.

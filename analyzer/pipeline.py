@@ -883,7 +883,9 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         bw = band[1] - band[0]
         sps_min = fs / rs if rs is not None else max(2.0, fs / bw)
         bins = trace.bins
-        spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps_min)
+        # the noise floor frame by frame, from the out-of-band noise (NaN without it)
+        oob_track = acquire.floor_track(trace, float("nan"))
+        spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps_min, track=oob_track)
         noise_var = floor * frame / max(bins, 1)       # complex noise variance per sample
         full_scale = 1.0
         floor_dbfs = float(10 * np.log10(noise_var)) if noise_var > 0 else float("-inf")
@@ -917,7 +919,7 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
             starts = list(_fork_map(_region_start, ctx, [(a, b, band) for a, b in regions], workers, len(regions)))
             starts = _common_rate(starts)
         # the noise floor where each region lies (it may drift along the capture)
-        track = acquire.floor_track(trace, floor) * frame / max(bins, 1)
+        track = (oob_track if np.all(np.isfinite(oob_track)) else np.full(len(power), floor)) * frame / max(bins, 1)
         tasks = []
         for (a, b), start in zip(regions, starts):
             if start is None:
