@@ -603,8 +603,9 @@ def _summary(bursts: list[BurstResult]) -> Summary:
 
 
 # --------------------------------------------------------------------------- entry points
-def _thin_spectrogram(sg: np.ndarray, max_frames: int = 1200) -> np.ndarray:
-    """At most ``max_frames`` rows (block means) for the report figure."""
+def _thin_spectrogram(sg: np.ndarray, max_frames: int = 600) -> np.ndarray:
+    """At most ``max_frames`` rows (block means) for the report figure: fewer rows than the
+    figure's axes have pixels, so that drawing them drops none (a short burst would vanish)."""
     if sg.shape[0] <= max_frames:
         return sg
     k = int(np.ceil(sg.shape[0] / max_frames))

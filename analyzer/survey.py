@@ -38,7 +38,7 @@ __all__ = ["QUANTUM", "TraceSpec", "Survey", "block_size", "blocks", "survey", "
 QUANTUM = 1 << 12
 #: With hints, at most about this many spectrogram frames are transformed:
 #: one frame in ``stride`` along a long capture (the report's figure shows at
-#: most 1200 rows, and the averaged spectrum of a few thousand frames is as
+#: most 600 rows, and the averaged spectrum of a few thousand frames is as
 #: steady as that of all of them).  Blind, every frame is transformed, since
 #: the band is found from them.
 SPECTROGRAM_MAX_FRAMES = 4800
