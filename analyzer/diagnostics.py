@@ -584,8 +584,9 @@ def _ln_i0_inverse(c: np.ndarray) -> np.ndarray:
         cf = c[far]
         x[far] = cf + 0.5 * np.log(2 * np.pi * cf)
     for _ in range(2):
-        f = np.log(special.i0e(x)) + x - c
-        d = special.i1e(x) / special.i0e(x)
+        i0 = special.i0e(x)
+        f = np.log(i0) + x - c
+        d = special.i1e(x) / i0
         x = np.where(d > 1e-12, np.maximum(x - f / np.where(d > 1e-12, d, 1.0), 0.0), x)
     return x
 
@@ -594,14 +595,16 @@ def _lr_error_given(g_sent: float, g_other: float, n_grid: int) -> float:
     """P(error | tone with amplitude g_sent sent) for the likelihood-ratio rule, sigma = 1 per output."""
     hi = g_sent + 12.0
     r = np.linspace(0.0, hi, n_grid)
-    lam = special.log1p(special.i0e(g_sent * r) - 1.0) + g_sent * r - 0.5 * g_sent ** 2   # ln I0(g r) - g^2/2
+    i0s = special.i0e(g_sent * r)
+    lam = special.log1p(i0s - 1.0) + g_sent * r - 0.5 * g_sent ** 2   # ln I0(g r) - g^2/2
     c = lam + 0.5 * g_other ** 2
     if g_other > 0:
         h = _ln_i0_inverse(np.maximum(c, 0.0)) / g_other
         tail = np.where(c > 0, np.exp(-0.5 * h ** 2), 1.0)   # Rayleigh(1) tail P(r_other > h)
     else:
         tail = np.where(c > 0, 0.0, 1.0)
-    pdf = stats.rice.pdf(r, g_sent)
+    # Rice(nu = g_sent, sigma = 1) density, r exp(-(r^2 + nu^2)/2) I0(nu r), as scipy.stats.rice.pdf
+    pdf = r * np.exp(-0.5 * (r - g_sent) ** 2) * i0s
     return float(np.trapezoid(pdf * tail, r))
 
 

@@ -369,3 +369,25 @@ def test_tone_estimate_is_the_periodogram_maximum_scipy_finds():
         ref = minimize_scalar(minus_p, bounds=(got - 2000.0, got + 2000.0), method="bounded",
                               options={"xatol": 1e-6}).x
         assert got == pytest.approx(ref, abs=1e-3)        # Hz; the estimate's own spread is ~50 Hz
+
+
+def test_likelihood_rule_error_matches_a_direct_integration():
+    from scipy import integrate
+
+    # reference: P(e | 0 sent) for the likelihood rule by scipy.integrate.quad over the Rician
+    # envelope (scipy.stats.rice) of the Rayleigh tail exp(-h^2/2), h from ln I0 by scipy.optimize
+    from scipy.optimize import brentq
+    from scipy import special
+
+    g0, g1 = 3.0, 2.0
+
+    def tail(r):
+        c = np.log(special.i0e(g0 * r)) + g0 * r - 0.5 * g0 ** 2 + 0.5 * g1 ** 2
+        if c <= 0:
+            return 1.0
+        h = brentq(lambda v: np.log(special.i0e(v)) + v - c, 0.0, c + 50.0) / g1
+        return np.exp(-0.5 * h * h)
+
+    ref = integrate.quad(lambda r: stats.rice.pdf(r, g0) * tail(r), 0.0, g0 + 12.0, limit=200)[0]
+    got = diagnostics._lr_error_given(g0, g1, 6001)
+    assert got == pytest.approx(ref, rel=1e-5)
