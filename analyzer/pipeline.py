@@ -645,7 +645,18 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
         top = max(t.line_snr for t in tried)
         best = min((t for t in tried if t.line_snr >= 0.5 * top), key=lambda t: t.symbol_rate_hz)
         rs, quality = best.symbol_rate_hz, best.line_snr
+        if quality < BLIND_MIN_LINE_QUALITY:
+            warn(f"{path}: the candidate burst near sample {start} ({len(x)} samples) shows no symbol-rate "
+                 f"line (quality {quality:.1f}, below {BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
+                 "unkeyed carrier, not analysed; give --tones and --baud to analyse it anyway")
+            return None
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
+
+
+#: Blind, a region whose best timing line stands less than this far above the
+#: spectrum around it (see acquire.TimingEstimate.line_snr) is not taken as a
+#: burst: below about 10 the line is as likely a noise peak.
+BLIND_MIN_LINE_QUALITY = 10.0
 
 
 def _receiver_input(x: np.ndarray, kind: str) -> np.ndarray:
