@@ -40,7 +40,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from .branches import EnergyTrace, SymbolGrid, correlate, oscillator, sliding_sums, symbol_grid, window_energy
+from .branches import EnergyTrace, SymbolGrid, oscillator, sliding_sums, symbol_grid, window_energy
 
 __all__ = [
     "PowerTrace", "BurstSpan", "band_power_frames", "find_bursts",

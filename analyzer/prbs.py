@@ -580,7 +580,6 @@ class _Aligner:
         Explicit pattern: the highest circular-correlation peaks of ``lo:hi``,
         with ``k0 = lo``.
         """
-        n_bits = self.bits.size
         if self.seed:
             kmax = min(hi, self.states.size)
             if kmax <= lo:
