@@ -17,7 +17,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscillator", "correlate",
+__all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscillator", "phasors", "correlate",
            "window_energy", "energy_trace", "sliding_sums", "template_correlation"]
 
 #: Block length of :func:`oscillator` (a power of two).
@@ -42,6 +42,27 @@ def oscillator(freq_hz: float, sample_rate_hz: float, first: int, count: int) ->
     coarse = np.exp(-2j * np.pi * coarse_cycles)
     fine = np.exp(-2j * np.pi * np.mod(cyc * np.arange(_OSC_BLOCK), 1.0))
     return (coarse[:, None] * fine[None, :]).ravel()[:count]
+
+
+def phasors(freqs_hz, sample_rate_hz: float, n: np.ndarray) -> np.ndarray:
+    """``exp(-j 2 pi f_i n_k / fs)`` for integer sample indices ``n`` (any order), shape ``(len(n), len(f))``.
+
+    Each index is split as ``n = n_min + B q + r`` with ``B`` = :data:`_OSC_BLOCK`:
+    one complex exponential per block ``q`` and per offset ``r`` (phases
+    reduced modulo one cycle, as in :func:`oscillator`), and one complex
+    multiply per entry -- instead of a complex exponential per entry.
+    """
+    f = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
+    n = np.asarray(n, dtype=np.int64)
+    if n.size == 0:
+        return np.empty((0, f.size), complex)
+    n0 = int(n.min())
+    q, r = np.divmod(n - n0, _OSC_BLOCK)
+    cyc = f / float(sample_rate_hz)                                   # (n_f,)
+    blocks = n0 + _OSC_BLOCK * np.arange(int(q.max()) + 1, dtype=np.float64)
+    coarse = np.exp(-2j * np.pi * np.mod(np.outer(blocks, cyc), 1.0))  # (n_blocks, n_f)
+    fine = np.exp(-2j * np.pi * np.mod(np.outer(np.arange(_OSC_BLOCK, dtype=np.float64), cyc), 1.0))
+    return np.take(coarse, q, axis=0) * np.take(fine, r, axis=0)
 
 
 @dataclass(frozen=True)
@@ -197,7 +218,7 @@ def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_ra
         n0 = firsts[lo:hi]
         rows = _windows(x, n0 - x_start, L)               # (k, L)
         acc = rows @ base                                 # (k, 2)
-        rot = np.exp(-2j * np.pi * np.outer(n0, f) / sample_rate_hz)
+        rot = phasors(f, sample_rate_hz, n0)
         z[lo:hi] = acc * rot
     return BranchOutputs(z=z, tones_hz=(float(f[0]), float(f[1])), grid=grid)
 
