@@ -54,6 +54,16 @@ def test_correlate_matches_direct_template_sums(first):
     assert np.max(np.abs(got - ref)) < tol
 
 
+@pytest.mark.parametrize("d", [1, 2, 4, 8, 12, 16, 64])
+def test_block_sums_match_numpy_sum(d):
+    rng = np.random.default_rng(d)
+    y = (rng.standard_normal((501, d)) + 1j * rng.standard_normal((501, d))) * 10.0 ** rng.integers(-3, 4, (501, d))
+    got = acquire._block_sums(y)
+    ref = np.sum(y, axis=1)                              # reference: numpy.sum along the rows
+    # tolerance: rounding of d additions, relative to the sum of magnitudes
+    assert np.all(np.abs(got - ref) <= 4 * d * 1.2e-16 * np.sum(np.abs(y), axis=1))
+
+
 def test_window_energy_matches_direct_sums():
     rng = np.random.default_rng(7)
     fs, tones, L = 80000.0, (-4000.0, 6000.0), 16
