@@ -14,6 +14,7 @@ carrier phase only rotates ``z_i``, which a noncoherent receiver ignores.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -65,6 +66,11 @@ def phasors(freqs_hz, sample_rate_hz: float, n: np.ndarray) -> np.ndarray:
     return np.take(coarse, q, axis=0) * np.take(fine, r, axis=0)
 
 
+def _read_only(a: np.ndarray) -> np.ndarray:
+    a.flags.writeable = False
+    return a
+
+
 @dataclass(frozen=True)
 class SymbolGrid:
     """Where the symbols of a burst lie, in capture samples.
@@ -86,15 +92,15 @@ class SymbolGrid:
     n_symbols: int
     window: int
 
-    @property
+    @cached_property
     def starts(self) -> np.ndarray:
-        """Fractional start sample of every symbol."""
-        return self.first_start + np.arange(self.n_symbols) * self.samples_per_symbol
+        """Fractional start sample of every symbol (read-only; computed once per grid)."""
+        return _read_only(self.first_start + np.arange(self.n_symbols) * self.samples_per_symbol)
 
-    @property
+    @cached_property
     def first_samples(self) -> np.ndarray:
-        """First whole sample used by each symbol (``ceil`` of its start)."""
-        return np.ceil(self.starts - 1e-9).astype(np.int64)
+        """First whole sample used by each symbol (``ceil`` of its start; read-only, computed once)."""
+        return _read_only(np.ceil(self.starts - 1e-9).astype(np.int64))
 
     @property
     def stop(self) -> float:
@@ -310,9 +316,11 @@ def sliding_sums(x: np.ndarray, tones_hz, sample_rate_hz: float, window: int) ->
     out = np.empty((f.size, max(len(x) - window + 1, 0)), dtype=complex)
     if out.shape[1] == 0:
         return out
+    c = np.empty(len(x) + 1, dtype=complex)       # running sums, c[0] = 0
+    c[0] = 0.0
     for i, fi in enumerate(f):
-        c = np.concatenate(([0.0], np.cumsum(x * oscillator(fi, sample_rate_hz, 0, len(x)))))
-        out[i] = c[window:] - c[:-window]
+        np.cumsum(x * oscillator(fi, sample_rate_hz, 0, len(x)), out=c[1:])
+        np.subtract(c[window:], c[:-window], out=out[i])
     return out
 
 
