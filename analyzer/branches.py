@@ -14,10 +14,11 @@ carrier phase only rotates ``z_i``, which a noncoherent receiver ignores.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
-__all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscillator", "correlate",
+__all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscillator", "phasors", "correlate",
            "window_energy", "energy_trace", "sliding_sums", "template_correlation"]
 
 #: Block length of :func:`oscillator` (a power of two).
@@ -44,6 +45,32 @@ def oscillator(freq_hz: float, sample_rate_hz: float, first: int, count: int) ->
     return (coarse[:, None] * fine[None, :]).ravel()[:count]
 
 
+def phasors(freqs_hz, sample_rate_hz: float, n: np.ndarray) -> np.ndarray:
+    """``exp(-j 2 pi f_i n_k / fs)`` for integer sample indices ``n`` (any order), shape ``(len(n), len(f))``.
+
+    Each index is split as ``n = n_min + B q + r`` with ``B`` = :data:`_OSC_BLOCK`:
+    one complex exponential per block ``q`` and per offset ``r`` (phases
+    reduced modulo one cycle, as in :func:`oscillator`), and one complex
+    multiply per entry -- instead of a complex exponential per entry.
+    """
+    f = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
+    n = np.asarray(n, dtype=np.int64)
+    if n.size == 0:
+        return np.empty((0, f.size), complex)
+    n0 = int(n.min())
+    q, r = np.divmod(n - n0, _OSC_BLOCK)
+    cyc = f / float(sample_rate_hz)                                   # (n_f,)
+    blocks = n0 + _OSC_BLOCK * np.arange(int(q.max()) + 1, dtype=np.float64)
+    coarse = np.exp(-2j * np.pi * np.mod(np.outer(blocks, cyc), 1.0))  # (n_blocks, n_f)
+    fine = np.exp(-2j * np.pi * np.mod(np.outer(np.arange(_OSC_BLOCK, dtype=np.float64), cyc), 1.0))
+    return np.take(coarse, q, axis=0) * np.take(fine, r, axis=0)
+
+
+def _read_only(a: np.ndarray) -> np.ndarray:
+    a.flags.writeable = False
+    return a
+
+
 @dataclass(frozen=True)
 class SymbolGrid:
     """Where the symbols of a burst lie, in capture samples.
@@ -65,15 +92,15 @@ class SymbolGrid:
     n_symbols: int
     window: int
 
-    @property
+    @cached_property
     def starts(self) -> np.ndarray:
-        """Fractional start sample of every symbol."""
-        return self.first_start + np.arange(self.n_symbols) * self.samples_per_symbol
+        """Fractional start sample of every symbol (read-only; computed once per grid)."""
+        return _read_only(self.first_start + np.arange(self.n_symbols) * self.samples_per_symbol)
 
-    @property
+    @cached_property
     def first_samples(self) -> np.ndarray:
-        """First whole sample used by each symbol (``ceil`` of its start)."""
-        return np.ceil(self.starts - 1e-9).astype(np.int64)
+        """First whole sample used by each symbol (``ceil`` of its start; read-only, computed once)."""
+        return _read_only(np.ceil(self.starts - 1e-9).astype(np.int64))
 
     @property
     def stop(self) -> float:
@@ -197,7 +224,7 @@ def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_ra
         n0 = firsts[lo:hi]
         rows = _windows(x, n0 - x_start, L)               # (k, L)
         acc = rows @ base                                 # (k, 2)
-        rot = np.exp(-2j * np.pi * np.outer(n0, f) / sample_rate_hz)
+        rot = phasors(f, sample_rate_hz, n0)
         z[lo:hi] = acc * rot
     return BranchOutputs(z=z, tones_hz=(float(f[0]), float(f[1])), grid=grid)
 
@@ -289,9 +316,11 @@ def sliding_sums(x: np.ndarray, tones_hz, sample_rate_hz: float, window: int) ->
     out = np.empty((f.size, max(len(x) - window + 1, 0)), dtype=complex)
     if out.shape[1] == 0:
         return out
+    c = np.empty(len(x) + 1, dtype=complex)       # running sums, c[0] = 0
+    c[0] = 0.0
     for i, fi in enumerate(f):
-        c = np.concatenate(([0.0], np.cumsum(x * oscillator(fi, sample_rate_hz, 0, len(x)))))
-        out[i] = c[window:] - c[:-window]
+        np.cumsum(x * oscillator(fi, sample_rate_hz, 0, len(x)), out=c[1:])
+        np.subtract(c[window:], c[:-window], out=out[i])
     return out
 
 

@@ -36,6 +36,34 @@ def test_oscillator_matches_numpy_exp(freq, first, count):
     assert np.max(np.abs(got - ref)) < 1e-15 * max(1.0, abs(freq / fs) * (first + count)) * 2 * np.pi + 1e-12
 
 
+@pytest.mark.parametrize("first", [0, 123_456_789])
+def test_correlate_matches_direct_template_sums(first):
+    rng = np.random.default_rng(11)
+    fs, tones = 1e6, (-50e3, 50e3)
+    grid = branches.symbol_grid(first + 2.3, 20.37, 300)
+    x = rng.standard_normal(6200) + 1j * rng.standard_normal(6200)
+    got = branches.correlate(x, first, grid, tones, fs).z
+    n = grid.first_samples[:, None] + np.arange(grid.window)[None, :]       # capture index of each sample
+    # reference: the definition z_i = sum_n x[n] exp(-j 2 pi f_i n / fs) / sqrt(L), by numpy.exp with
+    # the phase reduced modulo a cycle in exact integer arithmetic first (n f / fs = n / 20 here)
+    ref = np.stack([np.sum(x[n - first] * np.exp(-2j * np.pi * np.mod(n * int(f / 1e3), 1000) / 1000), axis=1)
+                    for f in tones], axis=1) / np.sqrt(grid.window)
+    # tolerance: rounding only -- the kernel's float64 phase of f n / fs cycles (1.2e7 cycles at the
+    # large offset) carries ~1e-16 of that count: 1.2e-9 cycle; sums of 20 unit samples are ~4.5
+    tol = 1e-13 + 2 * np.pi * 1.2e-16 * abs(tones[0]) / fs * (first + 6200) * np.sqrt(grid.window) * 5
+    assert np.max(np.abs(got - ref)) < tol
+
+
+@pytest.mark.parametrize("d", [1, 2, 4, 8, 12, 16, 64])
+def test_block_sums_match_numpy_sum(d):
+    rng = np.random.default_rng(d)
+    y = (rng.standard_normal((501, d)) + 1j * rng.standard_normal((501, d))) * 10.0 ** rng.integers(-3, 4, (501, d))
+    got = acquire._block_sums(y)
+    ref = np.sum(y, axis=1)                              # reference: numpy.sum along the rows
+    # tolerance: rounding of d additions, relative to the sum of magnitudes
+    assert np.all(np.abs(got - ref) <= 4 * d * 1.2e-16 * np.sum(np.abs(y), axis=1))
+
+
 def test_window_energy_matches_direct_sums():
     rng = np.random.default_rng(7)
     fs, tones, L = 80000.0, (-4000.0, 6000.0), 16
