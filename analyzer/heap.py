@@ -34,6 +34,14 @@ TRIM_THRESHOLD = 1 << 30
 _done = False
 
 
+def _libc():
+    """glibc's entry points, or None elsewhere."""
+    try:
+        return ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
+    except OSError:
+        return None
+
+
 def keep_freed_memory() -> bool:
     """Raise glibc's mmap and trim thresholds once per process.
 
@@ -45,10 +53,8 @@ def keep_freed_memory() -> bool:
     global _done
     if _done:
         return True
-    try:
-        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
-        mallopt = libc.mallopt
-    except (OSError, AttributeError):
+    mallopt = getattr(_libc(), "mallopt", None)
+    if mallopt is None:
         return False
     mallopt.argtypes = [ctypes.c_int, ctypes.c_int]
     mallopt.restype = ctypes.c_int
@@ -66,10 +72,8 @@ def release_freed_memory() -> None:
     transparent huge pages, 2 MB at a time); fresh pages cost it less, and it
     then keeps its own freed blocks.
     """
-    try:
-        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
-        trim = libc.malloc_trim
-    except (OSError, AttributeError):
+    trim = getattr(_libc(), "malloc_trim", None)
+    if trim is None:
         return
     trim.argtypes = [ctypes.c_size_t]
     trim(0)

@@ -16,7 +16,8 @@ import numpy as np
 from . import acquire, branches, decide, diagnostics, estimate, prbs, survey, theory
 from .capture import Capture, open_capture
 from .errors import CaptureWarning, InputError, warn
-from .heap import keep_freed_memory, release_freed_memory
+from .heap import keep_freed_memory
+from .workers import fork_map, fork_workers
 
 __all__ = ["AnalysisOptions", "BurstResult", "Summary", "AnalysisResult", "analyze", "analyze_capture"]
 
@@ -729,76 +730,17 @@ def _region_start(ctx: _RegionContext, a: int, b: int, band):
     return _starting_point(ctx.read(a, b - a).astype(np.complex128), ctx.fs, band, ctx.opts, ctx.path, a)
 
 
-#: ``(function, context)`` set in the parent just before worker processes are forked; they inherit it.
-_FORKED: tuple | None = None
 #: Fewest busy regions for which worker processes pay for themselves (forking
 #: two workers costs a few tens of milliseconds, a region of a few thousand
 #: symbols about as much).
 PARALLEL_MIN_REGIONS = 4
 
 
-def _forked_call(task):
-    """One task in a worker process: its result and the warnings it raised."""
-    fn, ctx = _FORKED
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always", CaptureWarning)
-        out = fn(ctx, *task)
-    return out, [str(w.message) for w in caught if issubclass(w.category, CaptureWarning)]
-
-
-def default_workers() -> int:
-    """Processes for the burst analysis: the cores this process may run on."""
-    import os
-
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except AttributeError:          # not on Linux
-        return max(1, os.cpu_count() or 1)
-
-
-def _can_fork() -> bool:
-    import multiprocessing
-    import threading
-
-    # forking copies only the calling thread: with other threads alive (a
-    # progress bar refreshing itself, a host application) a lock they hold
-    # would stay held in the child, so the analysis then stays in this process
-    return "fork" in multiprocessing.get_all_start_methods() and threading.active_count() == 1
-
-
-def _fork_workers(workers: int | None) -> int:
-    """Worker processes to fork for a pass: 1 where forking is not possible or not safe."""
-    n = default_workers() if workers is None else int(workers)
-    return n if n > 1 and _can_fork() else 1
-
-
 def _fork_map(fn, ctx: _RegionContext, tasks: list, workers: int | None, busy: int):
-    """Yield ``fn(ctx, *task)`` for each task in order: here, or in forked worker processes.
-
-    Results do not depend on the choice: each task runs the same code on the
-    same samples, and results come back in task order.  ``busy`` counts the
-    tasks with real work (forking pays from :data:`PARALLEL_MIN_REGIONS`).
-    Warnings raised in a worker are raised again here.
-    """
-    global _FORKED
-    n = _fork_workers(workers)
-    if n <= 1 or busy < PARALLEL_MIN_REGIONS:
-        for t in tasks:
-            yield fn(ctx, *t)
-        return
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor
-
-    _FORKED = (fn, ctx)
-    release_freed_memory()
-    try:
-        with ProcessPoolExecutor(max_workers=min(n, busy), mp_context=multiprocessing.get_context("fork")) as pool:
-            for out, messages in pool.map(_forked_call, tasks):
-                for m in messages:
-                    warn(m)
-                yield out
-    finally:
-        _FORKED = None
+    """``fn(ctx, *task)`` for each task in order, in forked workers once ``busy`` (the tasks
+    with real work) reaches :data:`PARALLEL_MIN_REGIONS` (see :func:`analyzer.workers.fork_map`)."""
+    n = fork_workers(workers) if busy >= PARALLEL_MIN_REGIONS else 1
+    return fork_map(fn, ctx, tasks, n)
 
 
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
@@ -811,7 +753,7 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     ``block`` is the number of samples read at a time in the passes over the
     capture (default :data:`BLOCK_SAMPLES`); it changes memory use, not results.
     ``workers`` is the number of processes for the burst regions (default
-    :func:`default_workers`; 1 keeps everything in this process); it changes
+    :func:`analyzer.workers.default_workers`; 1 keeps everything in this process); it changes
     speed, not results.
     """
     _check_hints(cap, opts)
@@ -862,7 +804,7 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         scan = survey.survey(cap.read, cap.n_samples, fs, blk, nfft_psd, kind=cap.kind,
                              clip_level=getattr(cap, "clip_level", None), path=cap.path, trace=known,
                              stride=survey.spectrogram_stride(cap.n_samples, every_frame=known is None),
-                             progress=stage_progress(stage), stage=stage, workers=_fork_workers(workers))
+                             progress=stage_progress(stage), stage=stage, workers=fork_workers(workers))
         if cap.n_samples == 0 or not scan.any_signal:
             raise InputError("the capture holds no signal (all samples are zero)", cap.path,
                              "check the recording chain")

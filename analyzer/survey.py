@@ -304,38 +304,26 @@ PARALLEL_MIN_SAMPLES = 1 << 22
 #: Stretches per worker (progress advances stretch by stretch).
 _STRETCHES_PER_WORKER = 4
 
-_FORKED = None      # (read, block, setup): set in the parent just before forking
 
-
-def _stretch_task(bounds: tuple[int, int]) -> _Partial:
-    read, block, setup = _FORKED
-    return _stretch(read, bounds[0], bounds[1], block, setup)
+def _stretch_task(ctx: tuple, lo: int, hi: int) -> _Partial:
+    read, block, setup = ctx
+    return _stretch(read, lo, hi, block, setup)
 
 
 def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, workers: int, progress, stage):
     """The pass over the whole capture, split in stretches among forked workers."""
-    global _FORKED
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor
-
-    from .heap import release_freed_memory
+    from .workers import fork_map
 
     n_blocks = -(-n_samples // block)
     k = int(min(n_blocks, workers * _STRETCHES_PER_WORKER))
     cuts = [int(round(i * n_blocks / k)) * block for i in range(k + 1)]
     cuts[-1] = n_samples
     bounds = [(a, min(b, n_samples)) for a, b in zip(cuts[:-1], cuts[1:]) if a < min(b, n_samples)]
-    _FORKED = (read, block, setup)
-    release_freed_memory()
     parts = []
-    try:
-        with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
-            for part in pool.map(_stretch_task, bounds):
-                parts.append(part)
-                if progress:
-                    progress(part.end, n_samples, stage)
-    finally:
-        _FORKED = None
+    for part in fork_map(_stretch_task, (read, block, setup), bounds, workers):
+        parts.append(part)
+        if progress:
+            progress(part.end, n_samples, stage)
     return _merge(parts)
 
 

@@ -153,8 +153,8 @@ pipeline._region_bursts = spy
 from analyzer import survey
 survey.PARALLEL_MIN_SAMPLES = 1
 real_task, real_merge, seen = survey._stretch_task, survey._merge, []
-def stretch_spy(bounds):
-    part = real_task(bounds)
+def stretch_spy(ctx, lo, hi):
+    part = real_task(ctx, lo, hi)
     part.pid = os.getpid()
     return part
 def merge_spy(parts):
