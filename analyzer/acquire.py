@@ -468,8 +468,7 @@ def noncoherent_frequency(rows: np.ndarray, sample_rate_hz: float, centre_hz: fl
         return float(grid[i])
     # Newton's method on P'(f) = 0 from the grid's best point: P is a trigonometric
     # polynomial, so its derivatives are exact sums over the lags
-    lags = np.arange(1, L)
-    w = 2 * np.pi * lags / sample_rate_hz
+    w = 2 * np.pi * np.arange(1, L) / sample_rate_hz
     f = float(grid[i])
     for _ in range(8):
         ph = R[1:] * np.exp(-1j * w * f)
@@ -477,16 +476,12 @@ def noncoherent_frequency(rows: np.ndarray, sample_rate_hz: float, centre_hz: fl
         d2 = -2.0 * float(np.sum(w * w * ph.real))       # d2P/df2
         if not d2 < 0:
             break
-        step_f = -d1 / d2
-        f_new = min(max(f + step_f, lo), hi)
-        if abs(f_new - f) <= 1e-9 * step:
-            f = f_new
+        f_next = min(max(f - d1 / d2, lo), hi)
+        if abs(f_next - f) <= 1e-9 * step:
+            if lo < f_next < hi:
+                return float(f_next)
             break
-        f = f_new
-    else:
-        f = None
-    if f is not None and d2 < 0 and lo < f < hi:
-        return float(f)
+        f = f_next
     # not concave at the start, or the optimum sits on the bracket: a bounded search
     res = minimize_scalar(lambda v: -_periodogram_from_lags(R, v, sample_rate_hz)[0],
                           bounds=(lo, hi), method="bounded", options={"xatol": 1e-6 * step})
