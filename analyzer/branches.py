@@ -25,33 +25,41 @@ __all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscilla
 _OSC_BLOCK = 256
 
 
+def _block_phasors(cycles_per_sample: np.ndarray, first: int, n_blocks: int) -> tuple[np.ndarray, np.ndarray]:
+    """Phasor tables for ``n = first + B q + r``: ``coarse[q]`` and ``fine[r]``, one column per frequency.
+
+    ``B`` is :data:`_OSC_BLOCK`; phases are reduced modulo one cycle before the
+    exponential, so the error is that of the float64 phase itself (about 1e-16
+    of the cycle count).
+    """
+    cyc = np.atleast_1d(np.asarray(cycles_per_sample, dtype=float))
+    blocks = int(first) + _OSC_BLOCK * np.arange(n_blocks, dtype=np.float64)
+    coarse = np.exp(-2j * np.pi * np.mod(np.outer(blocks, cyc), 1.0))
+    fine = np.exp(-2j * np.pi * np.mod(np.outer(np.arange(_OSC_BLOCK, dtype=np.float64), cyc), 1.0))
+    return coarse, fine
+
+
 def oscillator(freq_hz: float, sample_rate_hz: float, first: int, count: int) -> np.ndarray:
     """``exp(-j 2 pi f n / fs)`` for ``n = first .. first + count - 1``.
 
     Formed as the outer product of a coarse phasor (one per block of
     :data:`_OSC_BLOCK` samples) and a fine one (within the block), so each
-    sample costs one complex multiply instead of a complex exponential; the
-    phase is reduced modulo one cycle first, so the error is that of the
-    float64 phase itself (about 1e-16 of the cycle count ``f n / fs``).
+    sample costs one complex multiply instead of a complex exponential (see
+    :func:`_block_phasors` for the precision).
     """
     count = int(count)
     if count <= 0:
         return np.empty(0, complex)
-    cyc = float(freq_hz) / float(sample_rate_hz)
-    nb = -(-count // _OSC_BLOCK)
-    coarse_cycles = np.mod(cyc * (int(first) + _OSC_BLOCK * np.arange(nb, dtype=np.float64)), 1.0)
-    coarse = np.exp(-2j * np.pi * coarse_cycles)
-    fine = np.exp(-2j * np.pi * np.mod(cyc * np.arange(_OSC_BLOCK), 1.0))
-    return (coarse[:, None] * fine[None, :]).ravel()[:count]
+    coarse, fine = _block_phasors(float(freq_hz) / float(sample_rate_hz), first, -(-count // _OSC_BLOCK))
+    return (coarse[:, 0][:, None] * fine[:, 0][None, :]).ravel()[:count]
 
 
 def phasors(freqs_hz, sample_rate_hz: float, n: np.ndarray) -> np.ndarray:
     """``exp(-j 2 pi f_i n_k / fs)`` for integer sample indices ``n`` (any order), shape ``(len(n), len(f))``.
 
-    Each index is split as ``n = n_min + B q + r`` with ``B`` = :data:`_OSC_BLOCK`:
-    one complex exponential per block ``q`` and per offset ``r`` (phases
-    reduced modulo one cycle, as in :func:`oscillator`), and one complex
-    multiply per entry -- instead of a complex exponential per entry.
+    Each index is split as ``n = n_min + B q + r`` (:func:`_block_phasors`):
+    one complex exponential per block ``q`` and per offset ``r``, and one
+    complex multiply per entry -- instead of a complex exponential per entry.
     """
     f = np.atleast_1d(np.asarray(freqs_hz, dtype=float))
     n = np.asarray(n, dtype=np.int64)
@@ -59,10 +67,7 @@ def phasors(freqs_hz, sample_rate_hz: float, n: np.ndarray) -> np.ndarray:
         return np.empty((0, f.size), complex)
     n0 = int(n.min())
     q, r = np.divmod(n - n0, _OSC_BLOCK)
-    cyc = f / float(sample_rate_hz)                                   # (n_f,)
-    blocks = n0 + _OSC_BLOCK * np.arange(int(q.max()) + 1, dtype=np.float64)
-    coarse = np.exp(-2j * np.pi * np.mod(np.outer(blocks, cyc), 1.0))  # (n_blocks, n_f)
-    fine = np.exp(-2j * np.pi * np.mod(np.outer(np.arange(_OSC_BLOCK, dtype=np.float64), cyc), 1.0))
+    coarse, fine = _block_phasors(f / float(sample_rate_hz), n0, int(q.max()) + 1)
     return np.take(coarse, q, axis=0) * np.take(fine, r, axis=0)
 
 
