@@ -43,7 +43,7 @@ import numpy as np
 from .branches import EnergyTrace, SymbolGrid, oscillator, sliding_sums, symbol_grid, window_energy
 
 __all__ = [
-    "PowerTrace", "BurstSpan", "band_power_frames", "find_bursts",
+    "PowerTrace", "TraceFrames", "BurstSpan", "band_power_frames", "find_bursts",
     "symbol_energy_trace", "estimate_symbol_timing", "trim_to_burst", "refine_tones",
     "segment_symbols",
 ]
@@ -89,20 +89,62 @@ def frame_length(sample_rate_hz: float, symbol_rate_hz: float) -> int:
 NOISE_GROUPS = 8
 
 
-def _segment_weights(frame: int, parts) -> tuple[np.ndarray, np.ndarray]:
-    """Cut the bins ``0 .. frame-1`` where any of ``parts`` (boolean masks) starts or ends.
+def _runs(bins: np.ndarray) -> list[tuple[int, int]]:
+    """Contiguous runs ``(first, stop)`` of the sorted bin indices ``bins``."""
+    bins = np.asarray(bins, np.intp)
+    if bins.size == 0:
+        return []
+    cut = np.flatnonzero(np.diff(bins) != 1) + 1
+    return [(int(r[0]), int(r[-1]) + 1) for r in np.split(bins, cut)]
 
-    Returns the segment starts (for ``numpy.add.reduceat``) and a
-    (segments, parts) matrix of 0/1 saying which part each segment belongs
-    to, so one reduction and one small product give every part's sum.
+
+def _row_sum(s: np.ndarray, runs: list[tuple[int, int]]) -> np.ndarray:
+    """Sum of the rows ``s[a:b]`` over the runs, column by column (in row order, so the
+    same column gives the same sum wherever it lies in ``s``)."""
+    out = np.add.reduce(s[runs[0][0]:runs[0][1]], axis=0)
+    for a, b in runs[1:]:
+        out = out + np.add.reduce(s[a:b], axis=0)
+    return out
+
+
+def _sorted_rows(m: np.ndarray) -> np.ndarray:
+    """``numpy.sort(m, axis=0)`` for a few rows: odd-even transposition (compare and
+    exchange neighbouring rows, as many rounds as rows), one array operation per exchange."""
+    rows = [r for r in m]
+    g = len(rows)
+    for rnd in range(g):
+        for i in range(rnd % 2, g - 1, 2):
+            lo = np.minimum(rows[i], rows[i + 1])
+            rows[i + 1] = np.maximum(rows[i], rows[i + 1])
+            rows[i] = lo
+    return np.array(rows)
+
+
+@dataclass(frozen=True)
+class TraceFrames:
+    """What :func:`band_power_frames` gives per whole frame.
+
+    Attributes
+    ----------
+    power : numpy.ndarray
+        Mean power per frame of the in-band part of the signal.
+    noise : numpy.ndarray
+        The in-band power a noise-only frame would have if the noise is
+        white (see :func:`band_power_frames`); NaN with fewer than four
+        out-of-band bins.
+    dc_bin : numpy.ndarray
+        The complex DFT of each frame at 0 Hz (the sum of its samples), so
+        that a DC offset known only later can be removed from ``power``
+        exactly (:func:`remove_dc`).
+    energy : numpy.ndarray
+        ``sum |x|^2`` over each frame (Parseval: the sum of all bin powers
+        over the frame length).
     """
-    cuts = {0}
-    for m in parts:
-        d = np.diff(np.concatenate(([0], m.astype(np.int8), [0])))
-        cuts.update(np.flatnonzero(d != 0).tolist())
-    starts = np.array(sorted(c for c in cuts if c < frame), dtype=np.intp)
-    weights = np.array([[float(m[a]) for m in parts] for a in starts])
-    return starts, weights
+
+    power: np.ndarray
+    noise: np.ndarray
+    dc_bin: np.ndarray
+    energy: np.ndarray
 
 
 def _band_masks(sample_rate_hz: float, band_hz, frame: int, noise_bands_hz):
@@ -116,8 +158,8 @@ def _band_masks(sample_rate_hz: float, band_hz, frame: int, noise_bands_hz):
 
 
 def band_power_frames(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float],
-                      frame: int, noise_bands_hz=()) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """In-band power, the out-of-band noise estimate and the DC bin of each whole frame of ``x``.
+                      frame: int, noise_bands_hz=()) -> TraceFrames:
+    """In-band power, the out-of-band noise estimate, the DC bin and the energy of each whole frame of ``x``.
 
     Parameters
     ----------
@@ -132,47 +174,50 @@ def band_power_frames(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float
         Frame length.
     noise_bands_hz : sequence of (float, float)
         Where noise alone is expected (outside ``band_hz``); empty for none.
+
     Returns
     -------
-    power : numpy.ndarray
-        Mean power per frame of the in-band part of the signal.
-    noise : numpy.ndarray
-        The in-band power a noise-only frame would have if the noise is
-        white: the out-of-band bins (the DC bin excluded) are split into up to
-        :data:`NOISE_GROUPS` groups of neighbours, and the median of the
-        groups' mean bin powers, corrected from median to mean (a mean of
-        ``k`` bins of complex Gaussian noise is Gamma(k, 1/k), whose median
-        is ``gammaincinv(k, 1/2) / k``; ln 2 for one bin), is scaled to the
-        in-band bin count.  NaN with fewer than four such bins.
-    dc_bin : numpy.ndarray
-        The complex DFT of each frame at 0 Hz, so that a DC offset known only
-        later can be removed from ``power`` exactly (:func:`remove_dc`).
+    TraceFrames
+        The noise estimate: the out-of-band bins (the DC bin excluded) are
+        split into up to :data:`NOISE_GROUPS` groups of neighbours, and the
+        median of the groups' mean bin powers, corrected from median to mean
+        (a mean of ``k`` bins of complex Gaussian noise is Gamma(k, 1/k),
+        whose median is ``gammaincinv(k, 1/2) / k``; ln 2 for one bin), is
+        scaled to the in-band bin count.
+
+    Notes
+    -----
+    The frames are transformed bin-major (one row per DFT bin, one column
+    per frame), so that every sum over bins is a sum of whole rows: each
+    frame's figures are formed in the same order wherever the frame lies in
+    the block.
     """
     from scipy.fft import fft
     from scipy.special import gammaincinv
 
     n_frames = len(x) // frame
     if n_frames == 0:
-        return np.empty(0), np.empty(0), np.empty(0, complex)
-    xf = fft(np.asarray(x[:n_frames * frame]).reshape(n_frames, frame), axis=1)
-    spec = xf.real ** 2 + xf.imag ** 2
+        return TraceFrames(np.empty(0), np.empty(0), np.empty(0, complex), np.empty(0))
+    y = fft(np.asarray(x[:n_frames * frame]).reshape(n_frames, frame).T, axis=0)     # (bins, frames)
+    s = y.real ** 2 + y.imag ** 2
     inband, noise = _band_masks(sample_rate_hz, band_hz, frame, noise_bands_hz)
+    n_in = int(np.count_nonzero(inband))
+    power = (_row_sum(s, _runs(np.flatnonzero(inband))).astype(np.float64) / frame**2 if n_in
+             else np.zeros(n_frames))
+    energy = np.add.reduce(s, axis=0).astype(np.float64) / frame
     n_noise = int(np.count_nonzero(noise))
     groups = np.array_split(np.flatnonzero(noise), int(min(NOISE_GROUPS, n_noise // 4))) if n_noise >= 4 else []
-    parts = [inband] + [np.isin(np.arange(frame), g) for g in groups]
-    starts, weights = _segment_weights(frame, parts)
-    sums = np.add.reduceat(spec, starts, axis=1).astype(np.float64) @ weights     # (frames, 1 + groups)
-    power = sums[:, 0] / frame**2
     if groups:
-        means = np.sort(sums[:, 1:] / np.array([g.size for g in groups]), axis=1)
+        means = np.array([_row_sum(s, _runs(g)).astype(np.float64) / g.size for g in groups])
+        means = _sorted_rows(means)
         g = len(groups)
-        med = 0.5 * (means[:, (g - 1) // 2] + means[:, g // 2])
+        med = 0.5 * (means[(g - 1) // 2] + means[g // 2])
         # a mean of k exponential bins is Gamma(k, 1/k): its median is gammaincinv(k, 1/2) / k of the mean
         k = n_noise / g
-        nd = med * (k / gammaincinv(k, 0.5)) * np.count_nonzero(inband) / frame**2
+        nd = med * (k / gammaincinv(k, 0.5)) * n_in / frame**2
     else:
         nd = np.full(n_frames, np.nan)
-    return power, nd, xf[:, 0].astype(np.complex128)
+    return TraceFrames(power, nd, y[0].astype(np.complex128), energy)
 
 
 def remove_dc(power: np.ndarray, dc_bin: np.ndarray, dc: complex, sample_rate_hz: float,

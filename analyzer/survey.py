@@ -113,7 +113,7 @@ def spectrogram_stride(n_samples: int, every_frame: bool) -> int:
     """Spectrogram frames skipped per frame transformed (1 = all)."""
     if every_frame:
         return 1
-    return max(1, (n_samples // acquire.SPECTROGRAM_NFFT) // SPECTROGRAM_MAX_FRAMES)
+    return max(1, -(-(n_samples // acquire.SPECTROGRAM_NFFT) // SPECTROGRAM_MAX_FRAMES))
 
 
 def _first_bad(x: np.ndarray, pos: int, path) -> None:
@@ -217,12 +217,13 @@ class _Trace:
         self.spec, self.fs = spec, sample_rate_hz
         self.power, self.noise, self.dc_bin = [], [], []
 
-    def add(self, x: np.ndarray, pos: int) -> None:
+    def add(self, x: np.ndarray, pos: int) -> acquire.TraceFrames:
         s = self.spec
-        p, nd, x0 = acquire.band_power_frames(x, self.fs, s.band, s.frame, s.noise_bands)
-        self.power.append(p)
-        self.noise.append(nd)
-        self.dc_bin.append(x0)
+        tf = acquire.band_power_frames(x, self.fs, s.band, s.frame, s.noise_bands)
+        self.power.append(tf.power)
+        self.noise.append(tf.noise)
+        self.dc_bin.append(tf.dc_bin)
+        return tf
 
     def result(self, dc: complex) -> acquire.PowerTrace:
         s = self.spec
@@ -257,7 +258,16 @@ def _stretch(read, lo: int, hi: int, block: int, setup: tuple, progress=None, st
         x = read(pos, min(block, hi - pos))
         if len(x) == 0:
             break
-        sm, en = _quantum_sums(x)
+        if part.trace is not None:
+            # the trace frames carry each frame's sum (its 0 Hz bin) and energy (Parseval)
+            tf = part.trace.add(x, pos)
+            whole = len(tf.energy) * trace.frame
+            sm, en = tf.dc_bin, tf.energy
+            if whole < len(x):                   # the capture's last, partial frame
+                sm_t, en_t = _quantum_sums(x[whole:])
+                sm, en = np.concatenate((sm, sm_t)), np.concatenate((en, en_t))
+        else:
+            sm, en = _quantum_sums(x)
         if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
             _first_bad(x, pos, path)
         part.sums.append(sm)
@@ -267,7 +277,7 @@ def _stretch(read, lo: int, hi: int, block: int, setup: tuple, progress=None, st
             if kind != "audio":          # audio: the imaginary part is computed, not stored
                 over |= np.abs(x.imag) >= clip_level
             part.clipped += int(np.count_nonzero(over))
-        for acc in (part.main, part.short, part.trace):
+        for acc in (part.main, part.short):
             if acc is not None:
                 acc.add(x, pos)
         pos += len(x)
@@ -378,8 +388,10 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
     en = np.concatenate(part.energies) if part.energies else np.zeros(1)
     total_e = float(np.sum(en))
     dc = complex(np.sum(sm)) / n
+    # (a frame energy formed in single precision can underflow where its sum does not)
+    any_signal = total_e > 0 or bool(np.any(sm != 0))
     freqs, psd = (part.short or part.main).spectrum(dc, sample_rate_hz)
-    return Survey(mean=dc, power=total_e / n, clipped=part.clipped, any_signal=total_e > 0,
+    return Survey(mean=dc, power=total_e / n, clipped=part.clipped, any_signal=any_signal,
                   spectrogram=part.main.spectrogram(dc), spectrogram_stride=stride, freqs=freqs, psd=psd,
                   trace=part.trace.result(dc) if part.trace is not None else None)
 

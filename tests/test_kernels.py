@@ -17,7 +17,7 @@ import warnings
 
 import numpy as np
 import pytest
-from scipy import signal, stats
+from scipy import signal, special, stats
 
 from analyzer import acquire, branches, diagnostics, estimate
 from analyzer.estimate import GroupMoments
@@ -115,7 +115,8 @@ def test_trace_noise_estimate_is_unbiased_and_ignores_an_interferer():
     band, noise_bands = (-1e5, 1e5), [(-5e5, -1.5e5), (1.5e5, 5e5)]
     bins = acquire.band_bins(fs, band, frame)
     expected = sigma2 * bins / frame            # white noise: in-band power = variance x bins/frame (Parseval)
-    power, nd, _ = acquire.band_power_frames(x, fs, band, frame, noise_bands)
+    tf = acquire.band_power_frames(x, fs, band, frame, noise_bands)
+    power, nd = tf.power, tf.noise
     # the trace itself and the out-of-band estimate both average to it (40000 frames of 13 bins:
     # 1% is 7 sd of the mean)
     assert np.mean(power) == pytest.approx(expected, rel=0.01)
@@ -123,9 +124,40 @@ def test_trace_noise_estimate_is_unbiased_and_ignores_an_interferer():
     # a strong tone centred on a bin of the noise band (rectangular frames: no leakage to other
     # bins, so one group of bins is hit) leaves the estimate within 10%
     t = np.arange(n)
-    _, nd_i, _ = acquire.band_power_frames(x + 3.0 * np.exp(2j * np.pi * 3.125e5 * t / fs), fs, band, frame,
-                                           noise_bands)
+    nd_i = acquire.band_power_frames(x + 3.0 * np.exp(2j * np.pi * 3.125e5 * t / fs), fs, band, frame,
+                                     noise_bands).noise
     assert np.median(nd_i) == pytest.approx(np.median(nd), rel=0.10)
+
+
+def test_trace_frames_match_a_double_precision_dft():
+    # reference: numpy.fft in double precision on each frame; Parseval for the energy (common practice)
+    rng = np.random.default_rng(12)
+    fs, frame, n_frames = 1e6, 64, 3000
+    x = (0.3 * (rng.standard_normal(frame * n_frames + 17) + 1j * rng.standard_normal(frame * n_frames + 17))
+         + 0.1 - 0.2j).astype(np.complex64)
+    band, noise_bands = (-1e5, 1e5), [(-5e5, -1.5e5), (1.5e5, 5e5)]
+    tf = acquire.band_power_frames(x, fs, band, frame, noise_bands)
+    frames = x[:frame * n_frames].astype(np.complex128).reshape(n_frames, frame)
+    spec = np.abs(np.fft.fft(frames, axis=1)) ** 2
+    f = np.fft.fftfreq(frame, 1 / fs)
+    inband = (f >= band[0]) & (f <= band[1])
+    np.testing.assert_allclose(tf.power, spec[:, inband].sum(axis=1) / frame**2, rtol=1e-5)   # float32 FFT
+    np.testing.assert_allclose(tf.energy, np.sum(np.abs(frames) ** 2, axis=1), rtol=1e-5)
+    np.testing.assert_allclose(tf.dc_bin, frames.sum(axis=1), rtol=1e-5, atol=1e-4)
+    # the noise estimate: numpy.median over the groups' mean bin powers, Gamma-law correction
+    noise = np.zeros(frame, bool)
+    for lo, hi in noise_bands:
+        noise |= (f >= lo) & (f <= hi)
+    noise[0] = False
+    groups = np.array_split(np.flatnonzero(noise & ~inband), acquire.NOISE_GROUPS)
+    means = np.stack([spec[:, g].mean(axis=1) for g in groups], axis=1)
+    k = np.count_nonzero(noise & ~inband) / len(groups)
+    ref = np.median(means, axis=1) * k / special.gammaincinv(k, 0.5) * np.count_nonzero(inband) / frame**2
+    np.testing.assert_allclose(tf.noise, ref, rtol=1e-5)
+    # each frame's figures do not depend on where the block starts
+    later = acquire.band_power_frames(x[5 * frame:], fs, band, frame, noise_bands)
+    for a, b in ((tf.power, later.power), (tf.noise, later.noise), (tf.energy, later.energy)):
+        np.testing.assert_array_equal(a[5:], b)
 
 
 def test_dc_removed_after_the_pass_equals_dc_removed_before():
