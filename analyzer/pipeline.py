@@ -392,7 +392,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     # (decision-directed), while the tones still move
     for _ in range(2):
         grid = retime(grid, tones, dec)
-        out = branches.correlate(x, x_start, grid, tones, fs)
+        out = _correlate_again(x, x_start, grid, tones, fs, out)
         dec = decide.square_law(out.z)
         before = tones
         tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
@@ -433,8 +433,11 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     # burst edges to the symbol: extend or trim by the presence likelihood of each edge symbol
     edged = _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref)
     if edged is not None:
-        grid = edged
-        out = branches.correlate(x, x_start, grid, tones, fs)
+        grid, z_known, on_samples = edged
+        if grid.window == out.grid.window and np.array_equal(on_samples, grid.first_samples):
+            out = branches.BranchOutputs(z=z_known, tones_hz=out.tones_hz, grid=grid)
+        else:
+            out = branches.correlate(x, x_start, grid, tones, fs)
         dec = decide.square_law(out.z)
         ec, low_one = count(dec, ref)
     if ec is not None and ec.synced and ec.bits > 0:
@@ -471,6 +474,15 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
         nominal_tones_hz=opts.tones_hz, phase_continuity=float(estimate.phase_continuity(out.z, sent)),
         **diag)
+
+
+def _correlate_again(x, x_start, grid, tones, fs, prev: branches.BranchOutputs | None) -> branches.BranchOutputs:
+    """:func:`branches.correlate` on ``grid``, reusing ``prev`` when it was made with the same
+    tones on the same whole samples (an output depends on nothing else)."""
+    if (prev is not None and prev.tones_hz == tuple(tones) and prev.grid.window == grid.window
+            and np.array_equal(prev.grid.first_samples, grid.first_samples)):
+        return branches.BranchOutputs(z=prev.z, tones_hz=prev.tones_hz, grid=grid)
+    return branches.correlate(x, x_start, grid, tones, fs)
 
 
 def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows) -> dict:
@@ -515,7 +527,8 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     edge moves outwards over symbols whose ratio exceeds ``EDGE_LLR`` and
     inwards over symbols whose ratio does not.
 
-    Returns the new grid, or None when nothing changes.
+    Returns the new grid with the outputs already made for its symbols and
+    the first whole sample each was made on, or None when nothing changes.
     """
     n = grid.n_symbols
     if n < 4 * EDGE_SYMBOLS:
@@ -530,11 +543,15 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
         post -= 1
     ext = branches.symbol_grid(grid.first_start - pre * sps, sps, n + pre + post)
     # the burst's own outputs are known: correlate only the symbols beyond each edge
-    parts = [out.z]
+    parts, used = [out.z], [grid.first_samples]
     if pre:
-        parts.insert(0, branches.correlate(x, x_start, branches.symbol_grid(ext.first_start, sps, pre), tones, fs).z)
+        g_pre = branches.symbol_grid(ext.first_start, sps, pre)
+        parts.insert(0, branches.correlate(x, x_start, g_pre, tones, fs).z)
+        used.insert(0, g_pre.first_samples)
     if post:
-        parts.append(branches.correlate(x, x_start, branches.symbol_grid(grid.stop, sps, post), tones, fs).z)
+        g_post = branches.symbol_grid(grid.stop, sps, post)
+        parts.append(branches.correlate(x, x_start, g_post, tones, fs).z)
+        used.append(g_post.first_samples)
     z = np.concatenate(parts)
     dec_ext = decide.square_law(z)
     bits = dec_ext
@@ -571,7 +588,9 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
         stop -= 1
     if (first, stop) == (pre, pre + n) or stop - first < MIN_SYMBOLS:
         return None
-    return branches.symbol_grid(ext.starts[first], sps, stop - first)
+    new = branches.symbol_grid(ext.starts[first], sps, stop - first)
+    # the outputs already made for those symbols, and the whole samples they were made on
+    return new, z[first:stop], np.concatenate(used)[first:stop]
 
 
 def _summary(bursts: list[BurstResult]) -> Summary:
