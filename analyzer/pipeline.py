@@ -388,19 +388,6 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
             return acquire.transition_timing(x, x_start, g, tn, fs, bits)
         return acquire.refine_timing(x, x_start, g, tn, fs, energy=energy_for(tn, g))
 
-    # alternate timing and tones from the symbols that carried them
-    # (decision-directed), while the tones still move
-    for _ in range(2):
-        grid = retime(grid, tones, dec)
-        out = _correlate_again(x, x_start, grid, tones, fs, out)
-        dec = decide.square_law(out.z)
-        before = tones
-        tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
-        if max(abs(a - b) for a, b in zip(tones, before)) < SETTLED_TONE_SHIFT * fs / grid.samples_per_symbol:
-            break
-
-    # pattern sync on the last decisions (made with the tones before their last
-    # refinement, which moved them by less than SETTLED_TONE_SHIFT or twice)
     counted: dict = {}
 
     def count(bits, reference):
@@ -411,9 +398,27 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
             counted[key] = (reference, _count(bits, reference))
         return counted[key][1]
 
+    # timing on the starting tones, decisions, and pattern sync on them
+    grid = retime(grid, tones, dec)
+    out = _correlate_again(x, x_start, grid, tones, fs, out)
+    dec = decide.square_law(out.z)
     ref = _resolve_reference(opts, dec, bits_text)
     ec, low_one = count(dec, ref)
     synced = ec is not None and ec.synced and ec.bits > 0
+    if not synced:
+        # no pattern yet: alternate tones and timing from the symbols that carried
+        # them (decision-directed) while the tones still move, then look again
+        for _ in range(2):
+            before = tones
+            tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
+            grid = retime(grid, tones, dec)
+            out = _correlate_again(x, x_start, grid, tones, fs, out)
+            dec = decide.square_law(out.z)
+            if max(abs(a - b) for a, b in zip(tones, before)) < SETTLED_TONE_SHIFT * fs / grid.samples_per_symbol:
+                break
+        ref = _resolve_reference(opts, dec, bits_text)
+        ec, low_one = count(dec, ref)
+        synced = ec is not None and ec.synced and ec.bits > 0
     if synced:
         # with the pattern known, estimate the tones once more from the symbols
         # that truly carried them (wrong decisions would pull both inwards)
