@@ -437,8 +437,8 @@ def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, false_rate: flo
     edges = np.flatnonzero(np.diff(np.concatenate(([0], low.astype(np.int8), [0])))).reshape(-1, 2)
     # a gap must also look like noise on average (a grid that drifts half a
     # symbol off inside a burst lowers the energy to about the midpoint, not to n)
-    gaps = [(a, b) for a, b in edges if b - a >= r and a > 0 and b < n_sym
-            and np.mean(e[a:b]) < noise_level + 0.2 * g2]
+    long_enough = edges[(edges[:, 1] - edges[:, 0] >= r) & (edges[:, 0] > 0) & (edges[:, 1] < n_sym)]
+    gaps = [(a, b) for a, b in long_enough if np.mean(e[a:b]) < noise_level + 0.2 * g2]
     if not gaps:
         return [(0, n_sym)]
     parts, start = [], 0
