@@ -290,21 +290,30 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     # The 20th percentile of noise-only frames sits ~0.84 sd below their mean;
     # it overestimates the floor when bursts fill most of the capture, so the
     # out-of-band estimate (white noise assumed) caps it where available.
-    k_floor = int(min(max(1, k_want), p.size))
-    ps = np.convolve(p, np.ones(k_floor) / k_floor, mode="same")
-    rel = 1.0 / np.sqrt(b * k_floor)
-    floor = np.percentile(ps, 20) / max(1.0 - 0.84 * rel, 0.5)
     if track is None or len(track) != p.size or not np.all(np.isfinite(track)):
-        track = floor_track(trace, floor)
+        k_floor = int(min(max(1, k_want), p.size))
+        ps = np.convolve(p, np.ones(k_floor) / k_floor, mode="same")
+        rel = 1.0 / np.sqrt(b * k_floor)
+        track = floor_track(trace, np.percentile(ps, 20) / max(1.0 - 0.84 * rel, 0.5))
     floor = float(np.median(track))
     # Several moving-average lengths: short ones see short strong bursts, long
     # ones see long weak bursts; a run found at length k must last >= k frames.
     min_frames = max(1, int(min_len_samples / trace.frame / 2))
     above = np.zeros(p.size, bool)
+    # moving sums by doubling (the sum over 2k frames is two sums over k), aligned
+    # as numpy.convolve(p, ones(k) / k, mode="same") on zero padding
+    k_top = 1
+    while k_top < k_want and k_top < p.size:
+        k_top *= 2
+    run = np.concatenate((np.zeros(k_top), p, np.zeros(k_top)))
     k = 1
     while True:
         kk = min(k, p.size)
-        ps = np.convolve(p, np.ones(kk) / kk, mode="same")
+        if kk == k:
+            off = k_top + (k - 1) // 2 - (k - 1)
+            ps = run[off:off + p.size] / k
+        else:
+            ps = np.convolve(p, np.ones(kk) / kk, mode="same")
         a_k = ps > track * (1.0 + n_sigma / np.sqrt(b * kk))
         edges = np.flatnonzero(np.diff(np.concatenate(([0], a_k.astype(np.int8), [0])))).reshape(-1, 2)
         for a, e in edges:
@@ -312,6 +321,7 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
                 above[a:e] = True
         if k >= k_want or k >= p.size:
             break
+        run = run[:-k] + run[k:]
         k *= 2
     spans: list[BurstSpan] = []
     if not above.any():
@@ -323,14 +333,25 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     return spans, float(floor)
 
 
+#: The floor track averages the noise estimate over blocks of this many
+#: frames and takes the running median of :data:`FLOOR_TRACK_BLOCKS` blocks.
+FLOOR_TRACK_FRAMES = 8
+FLOOR_TRACK_BLOCKS = 17
+
+
 def floor_track(trace: PowerTrace, global_floor: float) -> np.ndarray:
     """The in-band noise floor frame by frame, following a drifting noise level.
 
-    Where out-of-band noise is seen (``trace.noise_density``) its running
-    median over 129 frames tracks the floor, even inside long bursts, whose
-    power stays in band; this assumes the noise is white across the band (true
-    of SDR and analyser I/Q away from the anti-alias roll-off).  Without
-    out-of-band bins the floor is the constant ``global_floor``.
+    Where out-of-band noise is seen (``trace.noise_density``) it tracks the
+    floor, even inside long bursts, whose power stays in band: the estimate is
+    averaged over blocks of :data:`FLOOR_TRACK_FRAMES` frames, and the running
+    median of :data:`FLOOR_TRACK_BLOCKS` block means (about 136 frames) is the
+    floor of every frame of the middle block.  The median ignores the few
+    blocks an interferer or a burst's skirt lifts; the block means make it
+    cost a small fraction of a running median over single frames.  This
+    assumes the noise is white across the band (true of SDR and analyser I/Q
+    away from the anti-alias roll-off).  Without out-of-band bins the floor is
+    the constant ``global_floor``.
     """
     p = np.asarray(trace.power, float)
     nd = np.asarray(trace.noise_density, float)
@@ -338,9 +359,15 @@ def floor_track(trace: PowerTrace, global_floor: float) -> np.ndarray:
         return np.full(p.size, float(global_floor))
     from scipy.ndimage import median_filter
 
-    ndf = np.where(np.isfinite(nd) & (nd > 0), nd, np.nanmedian(nd))
-    w = int(min(129, ndf.size) | 1)
-    return median_filter(ndf, size=w, mode="nearest")
+    ok = np.isfinite(nd) & (nd > 0)
+    ndf = nd if ok.all() else np.where(ok, nd, np.nanmedian(nd))
+    m = FLOOR_TRACK_FRAMES
+    n_full = ndf.size // m
+    means = ndf[:n_full * m].reshape(n_full, m).mean(axis=1)
+    if n_full * m < ndf.size:
+        means = np.append(means, ndf[n_full * m:].mean())
+    w = int(min(FLOOR_TRACK_BLOCKS, means.size) | 1)
+    return np.repeat(median_filter(means, size=w, mode="nearest"), m)[:ndf.size]
 
 
 def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int = 8
