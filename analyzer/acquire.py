@@ -251,6 +251,30 @@ class BurstSpan:
     floor: float          # noise floor (in-band power per frame) used
 
 
+def doubling_means(p: np.ndarray, k_top: int):
+    """Yield ``(k, numpy.convolve(p, ones(k) / k, mode="same"))`` for ``k = 1, 2, 4, .. k_top``.
+
+    The sums over ``2k`` samples are two sums over ``k`` (one addition per
+    sample and length, none of a running sum's cancellation); ``k`` above
+    ``len(p)`` is clipped to it, as the burst search needs.
+    """
+    p = np.asarray(p, float)
+    n = p.size
+    run = np.concatenate((np.zeros(k_top), p, np.zeros(k_top)))
+    k = 1
+    while k <= k_top:
+        if k <= n:
+            off = k_top + (k - 1) // 2 - (k - 1)
+            yield k, run[off:off + n] / k
+        else:
+            yield n, np.convolve(p, np.ones(n) / n, mode="same")
+            return
+        if k >= k_top or k >= n:
+            return
+        run = run[:-k] + run[k:]
+        k *= 2
+
+
 def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
                 max_rel_spread: float = 0.08, track: np.ndarray | None = None) -> tuple[list[BurstSpan], float]:
     """Find candidate bursts as runs of frames whose band power stands above the noise floor.
@@ -300,29 +324,15 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
     # ones see long weak bursts; a run found at length k must last >= k frames.
     min_frames = max(1, int(min_len_samples / trace.frame / 2))
     above = np.zeros(p.size, bool)
-    # moving sums by doubling (the sum over 2k frames is two sums over k), aligned
-    # as numpy.convolve(p, ones(k) / k, mode="same") on zero padding
     k_top = 1
     while k_top < k_want and k_top < p.size:
         k_top *= 2
-    run = np.concatenate((np.zeros(k_top), p, np.zeros(k_top)))
-    k = 1
-    while True:
-        kk = min(k, p.size)
-        if kk == k:
-            off = k_top + (k - 1) // 2 - (k - 1)
-            ps = run[off:off + p.size] / k
-        else:
-            ps = np.convolve(p, np.ones(kk) / kk, mode="same")
+    for kk, ps in doubling_means(p, k_top):
         a_k = ps > track * (1.0 + n_sigma / np.sqrt(b * kk))
         edges = np.flatnonzero(np.diff(np.concatenate(([0], a_k.astype(np.int8), [0])))).reshape(-1, 2)
         for a, e in edges:
             if e - a >= max(kk, min_frames):
                 above[a:e] = True
-        if k >= k_want or k >= p.size:
-            break
-        run = run[:-k] + run[k:]
-        k *= 2
     spans: list[BurstSpan] = []
     if not above.any():
         return spans, float(floor)
