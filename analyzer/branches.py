@@ -19,6 +19,7 @@ from functools import cached_property
 import numpy as np
 
 __all__ = ["SymbolGrid", "BranchOutputs", "EnergyTrace", "symbol_grid", "oscillator", "phasors", "correlate",
+           "correlate_at",
            "window_energy", "energy_trace", "sliding_sums", "template_correlation"]
 
 #: Block length of :func:`oscillator` (a power of two).
@@ -218,20 +219,29 @@ def correlate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_ra
     BranchOutputs
     """
     f = np.asarray(tones_hz, dtype=float)
-    L = grid.window
-    z = np.empty((grid.n_symbols, 2), dtype=complex)
+    z = correlate_at(x, x_start, grid.first_samples, grid.window, f, sample_rate_hz, chunk)
+    return BranchOutputs(z=z, tones_hz=(float(f[0]), float(f[1])), grid=grid)
+
+
+def correlate_at(x: np.ndarray, x_start: int, first_samples: np.ndarray, window: int, tones_hz,
+                 sample_rate_hz: float, chunk: int = 1 << 15) -> np.ndarray:
+    """The ``z`` of :func:`correlate` for windows of ``window`` samples starting at the
+    capture samples ``first_samples`` (any order; shape ``(len(first_samples), 2)``)."""
+    f = np.asarray(tones_hz, dtype=float)
+    L = int(window)
+    firsts = np.asarray(first_samples, dtype=np.int64)
+    z = np.empty((firsts.size, f.size), dtype=complex)
     m = np.arange(L)
     # w_i[n] = exp(j 2 pi f_i n / fs)/sqrt(L) written as exp(j 2 pi f_i n0/fs) * exp(j 2 pi f_i m/fs)
     base = np.exp(-2j * np.pi * np.outer(m, f) / sample_rate_hz) / np.sqrt(L)   # (L, 2), conj template
-    firsts = grid.first_samples
-    for lo in range(0, grid.n_symbols, chunk):
-        hi = min(lo + chunk, grid.n_symbols)
+    for lo in range(0, firsts.size, chunk):
+        hi = min(lo + chunk, firsts.size)
         n0 = firsts[lo:hi]
         rows = _windows(x, n0 - x_start, L)               # (k, L)
         acc = rows @ base                                 # (k, 2)
         rot = phasors(f, sample_rate_hz, n0)
         z[lo:hi] = acc * rot
-    return BranchOutputs(z=z, tones_hz=(float(f[0]), float(f[1])), grid=grid)
+    return z
 
 
 def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: int, tones_hz,

@@ -548,16 +548,11 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
         post -= 1
     ext = branches.symbol_grid(grid.first_start - pre * sps, sps, n + pre + post)
     # the burst's own outputs are known: correlate only the symbols beyond each edge
-    parts, used = [out.z], [grid.first_samples]
-    if pre:
-        g_pre = branches.symbol_grid(ext.first_start, sps, pre)
-        parts.insert(0, branches.correlate(x, x_start, g_pre, tones, fs).z)
-        used.insert(0, g_pre.first_samples)
-    if post:
-        g_post = branches.symbol_grid(grid.stop, sps, post)
-        parts.append(branches.correlate(x, x_start, g_post, tones, fs).z)
-        used.append(g_post.first_samples)
-    z = np.concatenate(parts)
+    at_pre = branches.symbol_grid(ext.first_start, sps, pre).first_samples if pre else np.empty(0, np.int64)
+    at_post = branches.symbol_grid(grid.stop, sps, post).first_samples if post else np.empty(0, np.int64)
+    z_edge = branches.correlate_at(x, x_start, np.concatenate((at_pre, at_post)), grid.window, tones, fs)
+    z = np.concatenate((z_edge[:pre], out.z, z_edge[pre:]))
+    used = (at_pre, grid.first_samples, at_post)
     dec_ext = decide.square_law(z)
     bits = dec_ext
     if ec is not None and ec.synced and ec.bits > 0:
