@@ -425,7 +425,11 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         known = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
         if continuous:
             grid = acquire.transition_timing(x, x_start, grid, tones, fs, known)
+        before = tones
         tones = acquire.refine_tones(_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
+        if not continuous and max(abs(a - b) for a, b in zip(tones, before)) >= \
+                SETTLED_TONE_SHIFT * fs / grid.samples_per_symbol:
+            grid = retime(grid, tones, known)     # the timing was found with tones that were well off
     else:
         grid = retime(grid, tones, dec)
     out = branches.correlate(x, x_start, grid, tones, fs)
