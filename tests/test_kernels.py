@@ -8,7 +8,9 @@ model checks computed by hand are held to the scipy.stats routine each one
 reproduces: scipy.stats.normaltest, scipy.stats.f_oneway, scipy.stats.kstest
 and scipy.stats.norm, with numpy.corrcoef and numpy.polyfit for correlations
 and slopes, the grouped branch moments to numpy.mean / numpy.cov, and the
-measured pulse to its per-entry definition (numpy.exp).
+measured pulse to its per-entry definition (numpy.exp).  The likelihood-rule
+error integral is held to scipy.integrate.quad and the decision gain's root
+to scipy.optimize.brentq.
 """
 
 from __future__ import annotations
@@ -417,5 +419,66 @@ def test_likelihood_rule_error_matches_a_direct_integration():
         return np.exp(-0.5 * h * h)
 
     ref = integrate.quad(lambda r: stats.rice.pdf(r, g0) * tail(r), 0.0, g0 + 12.0, limit=200)[0]
-    got = diagnostics._lr_error_given(g0, g1, 6001)
-    assert got == pytest.approx(ref, rel=1e-5)
+    got = float(diagnostics._lr_error_given(g0, g1)[0])
+    assert got == pytest.approx(ref, rel=1e-8)            # quad's default relative tolerance, 1.5e-8
+
+
+def _lr_reference(gs, go):
+    """P(e | sent) of the likelihood rule by scipy.integrate.quad, the threshold by scipy.optimize.brentq."""
+    from scipy import integrate, special
+    from scipy.optimize import brentq
+
+    def lnI0(v):
+        return np.log(special.i0e(v)) + v                 # ln I0 from scipy.special.i0e
+
+    def integrand(r):
+        c = lnI0(gs * r) - 0.5 * gs ** 2 + 0.5 * go ** 2
+        if c <= 0:
+            t = 1.0
+        elif go == 0:
+            t = 0.0
+        else:
+            h = brentq(lambda v: lnI0(v) - c, 0.0, c + 50.0, xtol=1e-300, rtol=1e-15) / go
+            t = np.exp(-0.5 * h * h)
+        return r * np.exp(-0.5 * (r - gs) ** 2) * special.i0e(gs * r) * t   # scipy.stats.rice.pdf
+
+    pts = None
+    if gs > go:                                            # where the tail leaves 1: give quad the kink
+        c0 = 0.5 * (gs * gs - go * go)
+        pts = [brentq(lambda v: lnI0(v) - c0, 0.0, c0 + 50.0, xtol=1e-300, rtol=1e-15) / gs]
+    return integrate.quad(integrand, 0.0, gs + 12.0, points=pts, limit=400, epsabs=0.0, epsrel=1e-12)[0]
+
+
+@pytest.mark.parametrize("e_sent, e_other", [(15.6, 16.0), (13.3, 6.67), (6.67, 13.3), (10.0, 10.0), (2.0, 2.5),
+                                              (40.0, 30.0), (500.0, 400.0), (15.0, 0.0), (0.0, 15.0),
+                                              (0.01, 0.02)])
+def test_likelihood_rule_quadrature_matches_adaptive_quad(e_sent, e_other):
+    gs, go = np.sqrt(2 * e_sent), np.sqrt(2 * e_other)
+    ref = _lr_reference(gs, go)                            # reference: scipy.integrate.quad, epsrel 1e-12
+    got = diagnostics._lr_error_given(gs, go)
+    assert got.shape == (1,)
+    # tolerance: the composite Gauss-Legendre rule converges geometrically on each smooth piece
+    # (about 1e-14 here); 1e-10 leaves room for the reference's own error
+    assert got[0] == pytest.approx(ref, rel=1e-10, abs=1e-300)
+    # several pairs in one call give each pair's value
+    both = diagnostics._lr_error_given([gs, go], [go, gs])
+    assert both[0] == pytest.approx(got[0], rel=1e-15, abs=1e-300)
+    assert both[1] == pytest.approx(_lr_reference(go, gs), rel=1e-10, abs=1e-300)
+
+
+@pytest.mark.parametrize("ebn0_db, imbalance_db", [(12.0, 0.15), (12.0, 1.0), (9.0, -2.5), (15.0, 4.0),
+                                                    (6.0, 0.5)])
+def test_decision_gain_root_matches_brentq(ebn0_db, imbalance_db):
+    from scipy.optimize import brentq
+
+    got = diagnostics.decision_gain(10 ** (ebn0_db / 10), imbalance_db)
+    r = 10 ** (abs(imbalance_db) / 10)
+
+    def f(y_db):
+        x = 10 ** (y_db / 10)
+        return np.log(diagnostics.ber_likelihood(2 * x / (1 + r), 2 * x * r / (1 + r))) - np.log(got.ber_square_law)
+
+    # reference: scipy.optimize.brentq on the same equation over the documented bracket, to 1e-10 dB
+    ref = brentq(f, ebn0_db - 6.0, ebn0_db + 0.5, xtol=1e-10)
+    assert got.gain_db == pytest.approx(ebn0_db - ref, abs=1e-4)                 # the stated accuracy
+    assert got.gain_db > 0
