@@ -482,3 +482,24 @@ def test_decision_gain_root_matches_brentq(ebn0_db, imbalance_db):
     ref = brentq(f, ebn0_db - 6.0, ebn0_db + 0.5, xtol=1e-10)
     assert got.gain_db == pytest.approx(ebn0_db - ref, abs=1e-4)                 # the stated accuracy
     assert got.gain_db > 0
+
+
+@pytest.mark.parametrize("n", [141, 500, 1996, 4000, 10000])
+def test_ks_pvalues_match_scipy_kstwo(n):
+    rng = np.random.default_rng(n)
+    # distances over the whole law: the Pelz-Good range (n d^2 < 2.2) densely, and beyond it
+    d = np.concatenate([np.linspace(0.3, 1.6, 300) / np.sqrt(n), rng.uniform(0.0, 0.7, 60), [0.5 / n, 1.0]])
+    got = diagnostics._ks_pvalues(d, np.full(d.size, n))
+    ref = stats.kstwo.sf(d, n)                                     # reference: scipy.stats.kstwo
+    # tolerance: the same series on Python floats instead of numpy scalars: rounding only
+    np.testing.assert_allclose(got, ref, rtol=1e-13, atol=1e-300)
+    big = diagnostics._ks_pvalues(d[:50], np.full(50, 20000))
+    np.testing.assert_allclose(big, stats.kstwobign.sf(d[:50] * np.sqrt(20000)), rtol=1e-14)  # asymptotic law
+
+
+def test_ks_family_pvalues_are_the_bonferroni_minimum():
+    d, n = [0.01, 0.03, 0.02, 0.001, 0.05], [2000, 2004, 150, 3000, 30]
+    p = stats.kstwo.sf(d, n)                                       # reference: scipy.stats.kstwo
+    got = diagnostics._ks_family_pvalues(d, n, [12, 3], [0, 0, 1, 1, 0])
+    assert got[0] == pytest.approx(min(1.0, 12 * min(p[0], p[1], p[4])), rel=1e-13)
+    assert got[1] == pytest.approx(min(1.0, 3 * min(p[2], p[3])), rel=1e-13)
