@@ -503,3 +503,19 @@ def test_ks_family_pvalues_are_the_bonferroni_minimum():
     got = diagnostics._ks_family_pvalues(d, n, [12, 3], [0, 0, 1, 1, 0])
     assert got[0] == pytest.approx(min(1.0, 12 * min(p[0], p[1], p[4])), rel=1e-13)
     assert got[1] == pytest.approx(min(1.0, 3 * min(p[2], p[3])), rel=1e-13)
+
+
+@pytest.mark.parametrize("n, L, c", [(4000, 20, 4), (700, 16, 1), (3, 5, 2)])
+def test_real_form_products_match_complex_matmul(n, L, c):
+    rng = np.random.default_rng(n + L + c)
+    m = rng.standard_normal((n, L)) + 1j * rng.standard_normal((n, L))
+    v = rng.standard_normal((L, c)) + 1j * rng.standard_normal((L, c))
+    w = rng.standard_normal((c, n)) + 1j * rng.standard_normal((c, n))
+    # reference: numpy's complex matmul; tolerance: rounding of L (resp. n) complex multiply-adds,
+    # relative to the sum of the magnitudes of the terms
+    got = diagnostics._rows_times(m, v)
+    assert got.shape == (n, c)
+    np.testing.assert_array_less(np.abs(got - m @ v), 8 * L * 1.2e-16 * (np.abs(m) @ np.abs(v)) + 1e-300)
+    got = diagnostics._times_rows(w, m)
+    assert got.shape == (c, L)
+    np.testing.assert_array_less(np.abs(got - w @ m), 8 * n * 1.2e-16 * (np.abs(w) @ np.abs(m)) + 1e-300)
