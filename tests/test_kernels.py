@@ -519,3 +519,42 @@ def test_real_form_products_match_complex_matmul(n, L, c):
     got = diagnostics._times_rows(w, m)
     assert got.shape == (c, L)
     np.testing.assert_array_less(np.abs(got - w @ m), 8 * n * 1.2e-16 * (np.abs(w) @ np.abs(m)) + 1e-300)
+
+
+@pytest.mark.parametrize("x_start, n_before, n_after", [(0, 40, 37), (987_654, 0, 25), (123, 31, 0)])
+def test_noise_window_outputs_match_the_correlator_route(x_start, n_before, n_after):
+    rng = np.random.default_rng(x_start + 1)
+    fs, tones, L, sps = 1e6, (-50e3, 50e3), 20, 20.0
+    guard = 2.0
+    burst = 300
+    first = x_start + int(guard * sps) + n_before * L + 7        # burst start, leaving n_before windows
+    n = (first - x_start) + burst * L + int(guard * sps) + n_after * L + 5
+    x = rng.standard_normal(n) + 1j * rng.standard_normal(n)
+    grid = branches.symbol_grid(first + 0.3, sps, burst)
+    got = diagnostics.noise_window_outputs(x, x_start, grid, tones, fs, guard)
+    # reference 1: the correlator (absolute-time templates) with each output referred to its window start
+    parts = []
+    before_end = int(np.floor(grid.first_start - guard * sps)) - x_start
+    nb = max(before_end, 0) // L
+    if nb:
+        g = branches.SymbolGrid(float(x_start + before_end - nb * L), float(L), nb, L)
+        parts.append(diagnostics.window_referenced(branches.correlate(x, x_start, g, tones, fs), fs))
+    after_start = int(np.ceil(grid.stop + guard * sps)) - x_start
+    na = (len(x) - after_start) // L
+    if na:
+        g = branches.SymbolGrid(float(x_start + after_start), float(L), na, L)
+        parts.append(diagnostics.window_referenced(branches.correlate(x, x_start, g, tones, fs), fs))
+    ref = np.concatenate(parts)
+    assert got.shape == ref.shape == (nb + na, 2)
+    assert nb >= n_before and na >= n_after
+    # tolerance: the correlator route turns each output by exp(-j 2 pi f n0 / fs) and back with
+    # numpy.exp of a phase of up to 2 pi f n0 / fs rad (3e5 rad here): ~1e-16 of that, per output of size ~4.5
+    tol = 1e-13 + 4 * 2 * np.pi * 1.2e-16 * max(abs(f) for f in tones) / fs * (x_start + n) * 4.5
+    assert np.max(np.abs(got - ref)) < tol
+    # reference 2: the definition z_i = sum_m x[n0 + m] exp(-j 2 pi f_i m / fs) / sqrt(L), numpy.exp
+    starts = np.r_[before_end - nb * L + L * np.arange(nb), after_start + L * np.arange(na)].astype(int)
+    m = np.arange(L)
+    direct = np.stack([np.sum(x[starts[:, None] + m] * np.exp(-2j * np.pi * f * m / fs), axis=1) for f in tones],
+                      axis=1) / np.sqrt(L)
+    np.testing.assert_allclose(got, direct, rtol=0, atol=1e-13)                    # rounding only
+
