@@ -494,10 +494,10 @@ def ebn0_trend(z: np.ndarray, sent: np.ndarray, energy_scale: float, blocks: int
     blocks = int(max(1, min(blocks, n // 32)))
     if n == 0:
         return Trend(np.full(1, np.nan), 0.0, 1.0, False, _TREND_MEANING)
-    power = z.real ** 2 + z.imag ** 2
-    idx = np.arange(n)
-    p_on = power[idx, sent]
-    p_off = power[idx, 1 - sent]
+    power = (z.real ** 2 + z.imag ** 2).reshape(-1)       # (n, 2) row by row
+    at = 2 * np.arange(n)
+    p_on = np.take(power, at + sent)
+    p_off = np.take(power, at + (1 - sent))
     edges = np.linspace(0, n, blocks + 1).astype(int)
     sizes = np.diff(edges)
     mean_on = np.add.reduceat(p_on, edges[:-1]) / sizes
