@@ -129,7 +129,7 @@ def envelope_cdf(r: np.ndarray, nu: float, sigma: float) -> np.ndarray:
 
 def _ks_statistic(cdf_values: np.ndarray) -> float:
     """Two-sided one-sample KS distance ``D`` from the model CDF at each sample."""
-    u = np.sort(np.asarray(cdf_values, float), kind="stable")   # the same order; the faster sort here
+    u = np.sort(np.asarray(cdf_values, float))
     n = u.size
     steps = np.arange(n + 1) / n                   # i / n for i = 0 ... n
     return float(max(np.max(steps[1:] - u), np.max(u - steps[:-1])))
