@@ -127,6 +127,28 @@ def envelope_cdf(r: np.ndarray, nu: float, sigma: float) -> np.ndarray:
     return np.clip(out, 0.0, 1.0, out=out)
 
 
+def _ks_statistics(cdf_values: list) -> list[float]:
+    """:func:`_ks_statistic` of several samples at once (one sort of a padded array)."""
+    sizes = [int(np.size(u)) for u in cdf_values]
+    if not sizes or min(sizes) == 0:
+        return [_ks_statistic(u) for u in cdf_values]
+    m = max(sizes)
+    buf = np.full((len(sizes), m), np.inf)           # padding sorts after every CDF value
+    for row, u in zip(buf, cdf_values):
+        row[:u.size] = u
+    if np.isnan(buf).any():                          # NaN sorts after the padding: one by one
+        return [_ks_statistic(u) for u in cdf_values]
+    buf.sort(axis=1)
+    nn = np.array(sizes, float)[:, None]
+    steps = np.arange(m + 1) / nn                    # i / n for i = 0 ... m, per sample
+    pad = np.arange(m)[None, :] >= nn
+    up = steps[:, 1:] - buf
+    down = buf - steps[:, :-1]
+    up[pad] = -np.inf
+    down[pad] = -np.inf
+    return np.maximum(up.max(axis=1), down.max(axis=1)).tolist()
+
+
 def _ks_statistic(cdf_values: np.ndarray) -> float:
     """Two-sided one-sample KS distance ``D`` from the model CDF at each sample."""
     u = np.sort(np.asarray(cdf_values, float))
@@ -255,22 +277,27 @@ def _ks_pvalues(d, n) -> np.ndarray:
     d = np.atleast_1d(np.asarray(d, float))
     n = np.atleast_1d(np.asarray(n, float))
     p = np.empty(d.shape)
-    exact = n <= 10000
-    t = n * d
-    usual = exact & (n > 140) & (t > 1.0) & (t < n - 1) & (d < 0.5)
-    series = usual & (t * d < 2.2) & (n * d ** 1.5 > 1.4)
-    for i in np.flatnonzero(series):      # a few distances: one Python-float series each
-        p[i] = 1.0 - _ks_cdf_pelz_good(int(n[i]), float(d[i]))
-    one_sided = usual & (t * d >= 2.2) & (t * d < 370.0)
-    for i in np.flatnonzero(one_sided):
-        p[i] = 2.0 * _smirnov_sf(int(n[i]), float(d[i]))
-    far = usual & (t * d >= 370.0)
-    p[far] = 0.0
-    rest = exact & ~series & ~one_sided & ~far
-    if np.any(rest):
+    rest, big = [], []
+    for i, (x, m) in enumerate(zip(d.tolist(), n.tolist())):     # a few distances, one by one
+        if m > 10000:
+            big.append(i)
+            continue
+        t = m * x
+        if not (m > 140 and 1.0 < t < m - 1 and x < 0.5):
+            rest.append(i)
+        elif t * x < 2.2:
+            if m * x ** 1.5 > 1.4:
+                p[i] = 1.0 - _ks_cdf_pelz_good(int(m), x)
+            else:
+                rest.append(i)
+        elif t * x < 370.0:
+            p[i] = 2.0 * _smirnov_sf(int(m), x)
+        else:
+            p[i] = 0.0
+    if rest:
         p[rest] = stats.kstwo.sf(d[rest], n[rest])
-    if not np.all(exact):
-        p[~exact] = stats.kstwobign.sf(d[~exact] * np.sqrt(n[~exact]))
+    if big:
+        p[big] = stats.kstwobign.sf(d[big] * np.sqrt(n[big]))
     return np.clip(p, 0.0, 1.0)
 
 
@@ -423,18 +450,19 @@ def model_checks(z: np.ndarray, sent: np.ndarray, gains: np.ndarray, noise_var: 
                              "non-Gaussian noise on the idle branch: impulsive noise, an interferer near "
                              "a tone, or clipping"))
     # 2. envelopes against Rice (sent) and Rayleigh/Rice-with-leakage (not sent)
-    d_on, n_on, d_off, n_off = [], [], [], []
+    u_on, u_off = [], []
     for i in (0, 1):
         j = 1 - i
         on = np.abs(zb[i][is_tone[i]])
         off = np.abs(idle[i])                              # the symbols that sent tone j
         if on.size >= 10 and g[i] > 0:
-            d_on.append(_ks_statistic(envelope_cdf(on, g[i], sig[i])))
-            n_on.append(on.size)
+            u_on.append(envelope_cdf(on, g[i], sig[i]))
         if off.size >= 10:
             leak = rho_abs * g[j]
-            d_off.append(_ks_statistic(envelope_cdf(off, leak if leak > 1e-3 * sig[i] else 0.0, sig[i])))
-            n_off.append(off.size)
+            u_off.append(envelope_cdf(off, leak if leak > 1e-3 * sig[i] else 0.0, sig[i]))
+    dist = _ks_statistics(u_on + u_off)                    # the KS distance of each sample
+    d_on, d_off = dist[:len(u_on)], dist[len(u_on):]
+    n_on, n_off = [u.size for u in u_on], [u.size for u in u_off]
     if d_on or d_off:
         # both families in one evaluation of the KS law (only where the one-sided bound leaves it open)
         p_on, p_off = _ks_family_pvalues(d_on + d_off, n_on + n_off, [2 * n_tests, 2 * n_tests],

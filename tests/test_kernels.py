@@ -571,3 +571,16 @@ def test_one_sided_ks_tail_matches_scipy_smirnov(n):
     for x in np.sqrt(np.linspace(2.2, 60.0, 40) / n):
         ref = special.smirnov(n, x)                                # reference: scipy.special.smirnov
         assert diagnostics._smirnov_sf(n, x) == pytest.approx(ref, rel=1e-11, abs=1e-300)   # stated bound
+
+
+def test_ks_statistics_of_several_samples_match_scipy_kstest():
+    rng = np.random.default_rng(19)
+    samples = [rng.uniform(size=k) for k in (2000, 1996, 37, 500)]
+    samples[3] = samples[3] ** 1.2                                  # one sample off the uniform law
+    got = diagnostics._ks_statistics(samples)
+    for u, d in zip(samples, got):
+        ref = stats.kstest(u, "uniform").statistic                 # reference: scipy.stats.kstest
+        assert d == pytest.approx(ref, rel=1e-14, abs=1e-15)        # the same sorted differences
+        assert d == diagnostics._ks_statistic(u)
+    with_nan = [samples[0], np.r_[samples[2], np.nan]]
+    assert np.isnan(diagnostics._ks_statistics(with_nan)[1])        # as the one-sample form gives it
