@@ -96,11 +96,7 @@ def envelope_cdf(r: np.ndarray, nu: float, sigma: float) -> np.ndarray:
     if r.size == 0:
         return np.zeros(0)
     lo, hi = float(r.min()), float(r.max())
-    span = (hi - lo) / sigma * _CDF_POINTS_PER_SIGMA
-    if math.isfinite(span):
-        k = min(max(math.ceil(span), 2), 1 << 14) + 1
-    else:
-        k = int(np.clip(np.ceil(span), 2, 1 << 14)) + 1
+    k = _cdf_grid_size(lo, hi, sigma)
     grid = np.linspace(lo, hi, k)
     a = nu / sigma
     u = grid / sigma
@@ -125,6 +121,64 @@ def envelope_cdf(r: np.ndarray, nu: float, sigma: float) -> np.ndarray:
     c0, c1, c2, c3 = np.take(coef, j, axis=1)
     out = c0 + t * (c1 + t * (c2 + t * c3))
     return np.clip(out, 0.0, 1.0, out=out)
+
+
+def _cdf_grid_size(lo: float, hi: float, sigma: float) -> int:
+    """Grid points of :func:`envelope_cdf` over ``[lo, hi]``: ``_CDF_POINTS_PER_SIGMA`` per sigma, 3 to 2^14 + 1."""
+    span = (hi - lo) / sigma * _CDF_POINTS_PER_SIGMA
+    if math.isfinite(span):
+        return min(max(math.ceil(span), 2), 1 << 14) + 1
+    return int(np.clip(np.ceil(span), 2, 1 << 14)) + 1
+
+
+def _envelope_cdfs(rs: list, nus: list, sigmas: list) -> list:
+    """:func:`envelope_cdf` of several samples (the same values), the Rician ones in one pass.
+
+    Each Rician sample keeps its own grid; the grids are laid end to end, so
+    the CDF, slope and Hermite coefficients of all of them are formed by one
+    call each, and every sample gathers the coefficients of its own intervals.
+    """
+    out = [None] * len(rs)
+    batch = []
+    for idx, (r, nu, sigma) in enumerate(zip(rs, nus, sigmas)):
+        r = np.asarray(r, float)
+        if nu <= 0 or r.size == 0:
+            out[idx] = envelope_cdf(r, nu, sigma)
+            continue
+        lo, hi = float(r.min()), float(r.max())
+        k = _cdf_grid_size(lo, hi, sigma)
+        h = (hi - lo) / (k - 1)
+        if h <= 0:
+            out[idx] = envelope_cdf(r, nu, sigma)
+            continue
+        batch.append((idx, r, nu / sigma, float(sigma), lo, hi, k, h))
+    if not batch:
+        return out
+    u = np.concatenate([np.linspace(lo, hi, k) / sigma for _, _, _, sigma, lo, hi, k, _ in batch])
+    ks = np.array([b[6] for b in batch])
+    a = np.repeat([b[2] for b in batch], ks)
+    hs = np.repeat([b[7] / b[3] for b in batch], ks)
+    cdf = special.chndtr(u * u, 2, a * a)
+    hm = hs * u * np.exp(-0.5 * (u - a) ** 2) * special.i0e(a * u)     # h F'(r), as envelope_cdf
+    m0, m1 = hm[:-1], hm[1:]
+    d = cdf[1:] - cdf[:-1]                       # intervals across two grids are never gathered
+    coef = np.empty((4, u.size - 1))
+    coef[0] = cdf[:-1]
+    coef[1] = m0
+    np.subtract(3.0 * d - 2.0 * m0, m1, out=coef[2])
+    np.subtract(m0 + m1, 2.0 * d, out=coef[3])
+    sizes = [b[1].size for b in batch]
+    r = np.concatenate([b[1] for b in batch])
+    t = (r - np.repeat([b[4] for b in batch], sizes)) / np.repeat([b[7] for b in batch], sizes)
+    j = np.minimum(t.astype(np.intp), np.repeat(ks - 2, sizes))
+    t -= j
+    j += np.repeat(np.cumsum(ks) - ks, sizes)    # each sample's intervals in the joined grid
+    c0, c1, c2, c3 = np.take(coef, j, axis=1)
+    val = c0 + t * (c1 + t * (c2 + t * c3))
+    np.clip(val, 0.0, 1.0, out=val)
+    for b, part in zip(batch, np.split(val, np.cumsum(sizes)[:-1])):
+        out[b[0]] = part
+    return out
 
 
 def _ks_statistics(cdf_values: list) -> list[float]:
@@ -450,17 +504,23 @@ def model_checks(z: np.ndarray, sent: np.ndarray, gains: np.ndarray, noise_var: 
                              "non-Gaussian noise on the idle branch: impulsive noise, an interferer near "
                              "a tone, or clipping"))
     # 2. envelopes against Rice (sent) and Rayleigh/Rice-with-leakage (not sent)
-    u_on, u_off = [], []
+    r_on, nu_on, s_on, r_off, nu_off, s_off = [], [], [], [], [], []
     for i in (0, 1):
         j = 1 - i
         on = np.abs(zb[i][is_tone[i]])
         off = np.abs(idle[i])                              # the symbols that sent tone j
         if on.size >= 10 and g[i] > 0:
-            u_on.append(envelope_cdf(on, g[i], sig[i]))
+            r_on.append(on)
+            nu_on.append(g[i])
+            s_on.append(sig[i])
         if off.size >= 10:
             leak = rho_abs * g[j]
-            u_off.append(envelope_cdf(off, leak if leak > 1e-3 * sig[i] else 0.0, sig[i]))
-    dist = _ks_statistics(u_on + u_off)                    # the KS distance of each sample
+            r_off.append(off)
+            nu_off.append(leak if leak > 1e-3 * sig[i] else 0.0)
+            s_off.append(sig[i])
+    u_all = _envelope_cdfs(r_on + r_off, nu_on + nu_off, s_on + s_off)
+    u_on, u_off = u_all[:len(r_on)], u_all[len(r_on):]
+    dist = _ks_statistics(u_all)                           # the KS distance of each sample
     d_on, d_off = dist[:len(u_on)], dist[len(u_on):]
     n_on, n_off = [u.size for u in u_on], [u.size for u in u_off]
     if d_on or d_off:

@@ -584,3 +584,17 @@ def test_ks_statistics_of_several_samples_match_scipy_kstest():
         assert d == diagnostics._ks_statistic(u)
     with_nan = [samples[0], np.r_[samples[2], np.nan]]
     assert np.isnan(diagnostics._ks_statistics(with_nan)[1])        # as the one-sample form gives it
+
+
+def test_envelope_cdfs_of_several_samples_equal_one_by_one():
+    rng = np.random.default_rng(23)
+    rs = [np.abs(3.0 + 1.1 * (rng.standard_normal(2000) + 1j * rng.standard_normal(2000))),
+          np.abs(0.4 * (rng.standard_normal(1500) + 1j * rng.standard_normal(1500))),
+          np.abs(5.0 + 0.7 * (rng.standard_normal(300) + 1j * rng.standard_normal(300))),
+          np.full(20, 2.5), np.zeros(0)]
+    nus, sigmas = [3.0, 0.0, 5.0, 1.0, 1.0], [1.1, 0.4, 0.7, 0.5, 1.0]
+    got = diagnostics._envelope_cdfs(rs, nus, sigmas)
+    for r, nu, s, g in zip(rs, nus, sigmas, got):
+        np.testing.assert_array_equal(g, diagnostics.envelope_cdf(r, nu, s))     # the same values
+    law = stats.rice(3.0 / 1.1, scale=1.1)                                      # reference: scipy.stats.rice
+    np.testing.assert_allclose(got[0], law.cdf(rs[0]), rtol=0, atol=1.2e-7)     # the stated bound
