@@ -8,7 +8,9 @@ model checks computed by hand are held to the scipy.stats routine each one
 reproduces: scipy.stats.normaltest, scipy.stats.f_oneway, scipy.stats.kstest
 and scipy.stats.norm, with numpy.corrcoef and numpy.polyfit for correlations
 and slopes, the grouped branch moments to numpy.mean / numpy.cov, and the
-measured pulse to its per-entry definition (numpy.exp).
+measured pulse to its per-entry definition (numpy.exp).  The likelihood-rule
+error integral is held to scipy.integrate.quad and the decision gain's root
+to scipy.optimize.brentq.
 """
 
 from __future__ import annotations
@@ -481,5 +483,182 @@ def test_likelihood_rule_error_matches_a_direct_integration():
         return np.exp(-0.5 * h * h)
 
     ref = integrate.quad(lambda r: stats.rice.pdf(r, g0) * tail(r), 0.0, g0 + 12.0, limit=200)[0]
-    got = diagnostics._lr_error_given(g0, g1, 6001)
-    assert got == pytest.approx(ref, rel=1e-5)
+    got = float(diagnostics._lr_error_given(g0, g1)[0])
+    assert got == pytest.approx(ref, rel=1e-8)            # quad's default relative tolerance, 1.5e-8
+
+
+def _lr_reference(gs, go):
+    """P(e | sent) of the likelihood rule by scipy.integrate.quad, the threshold by scipy.optimize.brentq."""
+    from scipy import integrate, special
+    from scipy.optimize import brentq
+
+    def lnI0(v):
+        return np.log(special.i0e(v)) + v                 # ln I0 from scipy.special.i0e
+
+    def integrand(r):
+        c = lnI0(gs * r) - 0.5 * gs ** 2 + 0.5 * go ** 2
+        if c <= 0:
+            t = 1.0
+        elif go == 0:
+            t = 0.0
+        else:
+            h = brentq(lambda v: lnI0(v) - c, 0.0, c + 50.0, xtol=1e-300, rtol=1e-15) / go
+            t = np.exp(-0.5 * h * h)
+        return r * np.exp(-0.5 * (r - gs) ** 2) * special.i0e(gs * r) * t   # scipy.stats.rice.pdf
+
+    pts = None
+    if gs > go:                                            # where the tail leaves 1: give quad the kink
+        c0 = 0.5 * (gs * gs - go * go)
+        pts = [brentq(lambda v: lnI0(v) - c0, 0.0, c0 + 50.0, xtol=1e-300, rtol=1e-15) / gs]
+    return integrate.quad(integrand, 0.0, gs + 12.0, points=pts, limit=400, epsabs=0.0, epsrel=1e-12)[0]
+
+
+@pytest.mark.parametrize("e_sent, e_other", [(15.6, 16.0), (13.3, 6.67), (6.67, 13.3), (10.0, 10.0), (2.0, 2.5),
+                                              (40.0, 30.0), (500.0, 400.0), (15.0, 0.0), (0.0, 15.0),
+                                              (0.01, 0.02)])
+def test_likelihood_rule_quadrature_matches_adaptive_quad(e_sent, e_other):
+    gs, go = np.sqrt(2 * e_sent), np.sqrt(2 * e_other)
+    ref = _lr_reference(gs, go)                            # reference: scipy.integrate.quad, epsrel 1e-12
+    got = diagnostics._lr_error_given(gs, go)
+    assert got.shape == (1,)
+    # tolerance: the composite Gauss-Legendre rule converges geometrically on each smooth piece
+    # (about 1e-14 here); 1e-10 leaves room for the reference's own error
+    assert got[0] == pytest.approx(ref, rel=1e-10, abs=1e-300)
+    # several pairs in one call give each pair's value
+    both = diagnostics._lr_error_given([gs, go], [go, gs])
+    assert both[0] == pytest.approx(got[0], rel=1e-15, abs=1e-300)
+    assert both[1] == pytest.approx(_lr_reference(go, gs), rel=1e-10, abs=1e-300)
+
+
+@pytest.mark.parametrize("ebn0_db, imbalance_db", [(12.0, 0.15), (12.0, 1.0), (9.0, -2.5), (15.0, 4.0),
+                                                    (6.0, 0.5)])
+def test_decision_gain_root_matches_brentq(ebn0_db, imbalance_db):
+    from scipy.optimize import brentq
+
+    got = diagnostics.decision_gain(10 ** (ebn0_db / 10), imbalance_db)
+    r = 10 ** (abs(imbalance_db) / 10)
+
+    def f(y_db):
+        x = 10 ** (y_db / 10)
+        return np.log(diagnostics.ber_likelihood(2 * x / (1 + r), 2 * x * r / (1 + r))) - np.log(got.ber_square_law)
+
+    # reference: scipy.optimize.brentq on the same equation over the documented bracket, to 1e-10 dB
+    ref = brentq(f, ebn0_db - 6.0, ebn0_db + 0.5, xtol=1e-10)
+    assert got.gain_db == pytest.approx(ebn0_db - ref, abs=1e-4)                 # the stated accuracy
+    assert got.gain_db > 0
+
+
+@pytest.mark.parametrize("n", [141, 500, 1996, 4000, 10000])
+def test_ks_pvalues_match_scipy_kstwo(n):
+    rng = np.random.default_rng(n)
+    # distances over the whole law: the Pelz-Good range (n d^2 < 2.2) densely, and beyond it
+    d = np.concatenate([np.linspace(0.3, 1.6, 300) / np.sqrt(n), rng.uniform(0.0, 0.7, 60), [0.5 / n, 1.0]])
+    got = diagnostics._ks_pvalues(d, np.full(d.size, n))
+    ref = stats.kstwo.sf(d, n)                                     # reference: scipy.stats.kstwo
+    series = n * d * d < 2.2
+    # tolerance: the same series on Python floats instead of numpy scalars: rounding only
+    np.testing.assert_allclose(got[series], ref[series], rtol=1e-13, atol=1e-300)
+    # beyond, twice the one-sided tail: the stated 1e-11 of the sum (and underflow near 0)
+    np.testing.assert_allclose(got[~series], ref[~series], rtol=1e-11, atol=1e-300)
+    assert np.count_nonzero(~series & (ref > 1e-12)) >= 5           # the one-sided range is exercised
+    big = diagnostics._ks_pvalues(d[:50], np.full(50, 20000))
+    np.testing.assert_allclose(big, stats.kstwobign.sf(d[:50] * np.sqrt(20000)), rtol=1e-14)  # asymptotic law
+
+
+def test_ks_family_pvalues_are_the_bonferroni_minimum():
+    d, n = [0.01, 0.03, 0.02, 0.001, 0.05], [2000, 2004, 150, 3000, 30]
+    p = stats.kstwo.sf(d, n)                                       # reference: scipy.stats.kstwo
+    got = diagnostics._ks_family_pvalues(d, n, [12, 3], [0, 0, 1, 1, 0])
+    assert got[0] == pytest.approx(min(1.0, 12 * min(p[0], p[1], p[4])), rel=1e-13)
+    assert got[1] == pytest.approx(min(1.0, 3 * min(p[2], p[3])), rel=1e-13)
+
+
+@pytest.mark.parametrize("n, L, c", [(4000, 20, 4), (700, 16, 1), (3, 5, 2)])
+def test_real_form_products_match_complex_matmul(n, L, c):
+    rng = np.random.default_rng(n + L + c)
+    m = rng.standard_normal((n, L)) + 1j * rng.standard_normal((n, L))
+    v = rng.standard_normal((L, c)) + 1j * rng.standard_normal((L, c))
+    w = rng.standard_normal((c, n)) + 1j * rng.standard_normal((c, n))
+    # reference: numpy's complex matmul; tolerance: rounding of L (resp. n) complex multiply-adds,
+    # relative to the sum of the magnitudes of the terms
+    got = diagnostics._rows_times(m, v)
+    assert got.shape == (n, c)
+    np.testing.assert_array_less(np.abs(got - m @ v), 8 * L * 1.2e-16 * (np.abs(m) @ np.abs(v)) + 1e-300)
+    got = diagnostics._times_rows(w, m)
+    assert got.shape == (c, L)
+    np.testing.assert_array_less(np.abs(got - w @ m), 8 * n * 1.2e-16 * (np.abs(w) @ np.abs(m)) + 1e-300)
+
+
+@pytest.mark.parametrize("x_start, n_before, n_after", [(0, 40, 37), (987_654, 0, 25), (123, 31, 0)])
+def test_noise_window_outputs_match_the_correlator_route(x_start, n_before, n_after):
+    rng = np.random.default_rng(x_start + 1)
+    fs, tones, L, sps = 1e6, (-50e3, 50e3), 20, 20.0
+    guard = 2.0
+    burst = 300
+    first = x_start + int(guard * sps) + n_before * L + 7        # burst start, leaving n_before windows
+    n = (first - x_start) + burst * L + int(guard * sps) + n_after * L + 5
+    x = rng.standard_normal(n) + 1j * rng.standard_normal(n)
+    grid = branches.symbol_grid(first + 0.3, sps, burst)
+    got = diagnostics.noise_window_outputs(x, x_start, grid, tones, fs, guard)
+    # reference 1: the correlator (absolute-time templates) with each output referred to its window start
+    parts = []
+    before_end = int(np.floor(grid.first_start - guard * sps)) - x_start
+    nb = max(before_end, 0) // L
+    if nb:
+        g = branches.SymbolGrid(float(x_start + before_end - nb * L), float(L), nb, L)
+        parts.append(diagnostics.window_referenced(branches.correlate(x, x_start, g, tones, fs), fs))
+    after_start = int(np.ceil(grid.stop + guard * sps)) - x_start
+    na = (len(x) - after_start) // L
+    if na:
+        g = branches.SymbolGrid(float(x_start + after_start), float(L), na, L)
+        parts.append(diagnostics.window_referenced(branches.correlate(x, x_start, g, tones, fs), fs))
+    ref = np.concatenate(parts)
+    assert got.shape == ref.shape == (nb + na, 2)
+    assert nb >= n_before and na >= n_after
+    # tolerance: the correlator route turns each output by exp(-j 2 pi f n0 / fs) and back with
+    # numpy.exp of a phase of up to 2 pi f n0 / fs rad (3e5 rad here): ~1e-16 of that, per output of size ~4.5
+    tol = 1e-13 + 4 * 2 * np.pi * 1.2e-16 * max(abs(f) for f in tones) / fs * (x_start + n) * 4.5
+    assert np.max(np.abs(got - ref)) < tol
+    # reference 2: the definition z_i = sum_m x[n0 + m] exp(-j 2 pi f_i m / fs) / sqrt(L), numpy.exp
+    starts = np.r_[before_end - nb * L + L * np.arange(nb), after_start + L * np.arange(na)].astype(int)
+    m = np.arange(L)
+    direct = np.stack([np.sum(x[starts[:, None] + m] * np.exp(-2j * np.pi * f * m / fs), axis=1) for f in tones],
+                      axis=1) / np.sqrt(L)
+    np.testing.assert_allclose(got, direct, rtol=0, atol=1e-13)                    # rounding only
+
+
+
+@pytest.mark.parametrize("n", [141, 2000, 10000])
+def test_one_sided_ks_tail_matches_scipy_smirnov(n):
+    from scipy import special
+
+    for x in np.sqrt(np.linspace(2.2, 60.0, 40) / n):
+        ref = special.smirnov(n, x)                                # reference: scipy.special.smirnov
+        assert diagnostics._smirnov_sf(n, x) == pytest.approx(ref, rel=1e-11, abs=1e-300)   # stated bound
+
+
+def test_ks_statistics_of_several_samples_match_scipy_kstest():
+    rng = np.random.default_rng(19)
+    samples = [rng.uniform(size=k) for k in (2000, 1996, 37, 500)]
+    samples[3] = samples[3] ** 1.2                                  # one sample off the uniform law
+    got = diagnostics._ks_statistics(samples)
+    for u, d in zip(samples, got):
+        ref = stats.kstest(u, "uniform").statistic                 # reference: scipy.stats.kstest
+        assert d == pytest.approx(ref, rel=1e-14, abs=1e-15)        # the same sorted differences
+        assert d == diagnostics._ks_statistic(u)
+    with_nan = [samples[0], np.r_[samples[2], np.nan]]
+    assert np.isnan(diagnostics._ks_statistics(with_nan)[1])        # as the one-sample form gives it
+
+
+def test_envelope_cdfs_of_several_samples_equal_one_by_one():
+    rng = np.random.default_rng(23)
+    rs = [np.abs(3.0 + 1.1 * (rng.standard_normal(2000) + 1j * rng.standard_normal(2000))),
+          np.abs(0.4 * (rng.standard_normal(1500) + 1j * rng.standard_normal(1500))),
+          np.abs(5.0 + 0.7 * (rng.standard_normal(300) + 1j * rng.standard_normal(300))),
+          np.full(20, 2.5), np.zeros(0)]
+    nus, sigmas = [3.0, 0.0, 5.0, 1.0, 1.0], [1.1, 0.4, 0.7, 0.5, 1.0]
+    got = diagnostics._envelope_cdfs(rs, nus, sigmas)
+    for r, nu, s, g in zip(rs, nus, sigmas, got):
+        np.testing.assert_array_equal(g, diagnostics.envelope_cdf(r, nu, s))     # the same values
+    law = stats.rice(3.0 / 1.1, scale=1.1)                                      # reference: scipy.stats.rice
+    np.testing.assert_allclose(got[0], law.cdf(rs[0]), rtol=0, atol=1.2e-7)     # the stated bound
