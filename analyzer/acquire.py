@@ -37,6 +37,7 @@ References
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -157,6 +158,29 @@ def _band_masks(sample_rate_hz: float, band_hz, frame: int, noise_bands_hz):
     return inband, noise & ~inband
 
 
+@functools.lru_cache(maxsize=32)
+def _trace_layout(sample_rate_hz: float, band_hz: tuple, frame: int, noise_bands_hz: tuple):
+    """Bins :func:`band_power_frames` sums, worked out once per band and frame.
+
+    Returns the in-band runs and bin count, the runs and sizes of the noise
+    groups, and the factor from the groups' median mean bin power to the
+    in-band noise power per frame (a mean of ``k`` exponential bins is
+    Gamma(k, 1/k): its median is ``gammaincinv(k, 1/2) / k`` of the mean).
+    """
+    from scipy.special import gammaincinv
+
+    inband, noise = _band_masks(sample_rate_hz, band_hz, frame, noise_bands_hz)
+    n_in = int(np.count_nonzero(inband))
+    n_noise = int(np.count_nonzero(noise))
+    groups = np.array_split(np.flatnonzero(noise), int(min(NOISE_GROUPS, n_noise // 4))) if n_noise >= 4 else []
+    to_mean = 0.0
+    if groups:
+        k = n_noise / len(groups)
+        to_mean = float((k / gammaincinv(k, 0.5)) * n_in / frame**2)
+    return (_runs(np.flatnonzero(inband)), n_in, [_runs(g) for g in groups], [int(g.size) for g in groups],
+            to_mean)
+
+
 def band_power_frames(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float],
                       frame: int, noise_bands_hz=()) -> TraceFrames:
     """In-band power, the out-of-band noise estimate, the DC bin and the energy of each whole frame of ``x``.
@@ -193,28 +217,22 @@ def band_power_frames(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float
     the block.
     """
     from scipy.fft import fft
-    from scipy.special import gammaincinv
 
     n_frames = len(x) // frame
     if n_frames == 0:
         return TraceFrames(np.empty(0), np.empty(0), np.empty(0, complex), np.empty(0))
     y = fft(np.asarray(x[:n_frames * frame]).reshape(n_frames, frame).T, axis=0)     # (bins, frames)
     s = y.real ** 2 + y.imag ** 2
-    inband, noise = _band_masks(sample_rate_hz, band_hz, frame, noise_bands_hz)
-    n_in = int(np.count_nonzero(inband))
-    power = (_row_sum(s, _runs(np.flatnonzero(inband))).astype(np.float64) / frame**2 if n_in
-             else np.zeros(n_frames))
+    in_runs, n_in, group_runs, group_sizes, to_mean = _trace_layout(
+        float(sample_rate_hz), tuple(float(v) for v in band_hz), int(frame),
+        tuple((float(lo), float(hi)) for lo, hi in noise_bands_hz))
+    power = _row_sum(s, in_runs).astype(np.float64) / frame**2 if n_in else np.zeros(n_frames)
     energy = np.add.reduce(s, axis=0).astype(np.float64) / frame
-    n_noise = int(np.count_nonzero(noise))
-    groups = np.array_split(np.flatnonzero(noise), int(min(NOISE_GROUPS, n_noise // 4))) if n_noise >= 4 else []
-    if groups:
-        means = np.array([_row_sum(s, _runs(g)).astype(np.float64) / g.size for g in groups])
-        means = _sorted_rows(means)
-        g = len(groups)
-        med = 0.5 * (means[(g - 1) // 2] + means[g // 2])
-        # a mean of k exponential bins is Gamma(k, 1/k): its median is gammaincinv(k, 1/2) / k of the mean
-        k = n_noise / g
-        nd = med * (k / gammaincinv(k, 0.5)) * n_in / frame**2
+    if group_runs:
+        means = _sorted_rows(np.array([_row_sum(s, r).astype(np.float64) / k
+                                       for r, k in zip(group_runs, group_sizes)]))
+        g = len(group_runs)
+        nd = 0.5 * (means[(g - 1) // 2] + means[g // 2]) * to_mean
     else:
         nd = np.full(n_frames, np.nan)
     return TraceFrames(power, nd, y[0].astype(np.complex128), energy)

@@ -26,8 +26,10 @@ MIN_SYMBOLS = 16             # shortest burst analysed
 #: Samples read per block in the passes over the capture (rounded up to a
 #: multiple of :data:`QUANTUM` and of every frame length used).  The results do
 #: not depend on it: every sum is formed per quantum, frames never straddle a
-#: block, and the per-quantum sums are added up in one go at the end.
-BLOCK_SAMPLES = 1 << 20
+#: block, and the per-quantum sums are added up in one go at the end.  A block
+#: of 2 MB (complex64) keeps a block's temporaries in cache for two workers at
+#: once; much smaller blocks pay a fixed cost per block.
+BLOCK_SAMPLES = 1 << 18
 #: Samples per partial sum (see :mod:`analyzer.survey`).
 QUANTUM = survey.QUANTUM
 #: Longest stretch of the capture read at once for burst analysis.  A region

@@ -211,25 +211,43 @@ class _Periodograms:
 
 
 class _Trace:
-    """Band-power trace frames, with the raw DC bins for the correction."""
+    """Band-power trace frames of a whole capture, with the raw DC bins for the correction.
 
-    def __init__(self, spec: TraceSpec, sample_rate_hz: float):
+    The per-frame arrays are made before the pass, one entry per whole frame
+    of the capture, and each block writes its frames in place.  With
+    ``shared`` they live in memory shared with forked workers (an anonymous
+    shared mapping), so the workers' frames need not be sent back.
+    """
+
+    def __init__(self, spec: TraceSpec, sample_rate_hz: float, n_samples: int, shared: bool = False):
         self.spec, self.fs = spec, sample_rate_hz
-        self.power, self.noise, self.dc_bin = [], [], []
+        n = max(int(n_samples), 0) // spec.frame
+        layout = (("power", np.float64), ("noise", np.float64), ("dc_bin", np.complex128), ("energy", np.float64))
+        if shared and n:
+            import mmap
+
+            self._map = mmap.mmap(-1, n * sum(np.dtype(t).itemsize for _, t in layout))
+            offset = 0
+            for name, t in layout:
+                setattr(self, name, np.frombuffer(self._map, dtype=t, count=n, offset=offset))
+                offset += n * np.dtype(t).itemsize
+        else:
+            for name, t in layout:
+                setattr(self, name, np.zeros(n, dtype=t))
 
     def add(self, x: np.ndarray, pos: int) -> acquire.TraceFrames:
         s = self.spec
         tf = acquire.band_power_frames(x, self.fs, s.band, s.frame, s.noise_bands)
-        self.power.append(tf.power)
-        self.noise.append(tf.noise)
-        self.dc_bin.append(tf.dc_bin)
+        i = pos // s.frame
+        j = i + len(tf.power)
+        self.power[i:j], self.noise[i:j], self.dc_bin[i:j], self.energy[i:j] = \
+            tf.power, tf.noise, tf.dc_bin, tf.energy
         return tf
 
     def result(self, dc: complex) -> acquire.PowerTrace:
         s = self.spec
-        cat = (lambda parts, dt: np.concatenate(parts) if parts else np.empty(0, dt))
-        power = acquire.remove_dc(cat(self.power, float), cat(self.dc_bin, complex), dc, self.fs, s.band, s.frame)
-        return acquire.PowerTrace(power, cat(self.noise, float), s.frame,
+        power = acquire.remove_dc(np.array(self.power), np.array(self.dc_bin), dc, self.fs, s.band, s.frame)
+        return acquire.PowerTrace(power, np.array(self.noise), s.frame,
                                   acquire.band_bins(self.fs, s.band, s.frame), s.band)
 
 
@@ -239,39 +257,40 @@ class _Partial:
 
     main: _Periodograms
     short: _Periodograms | None
-    trace: _Trace | None
-    sums: list
+    sums: list              # per quantum, or (with a trace) of the capture's last partial frame only
     energies: list
     clipped: int = 0
     end: int = 0
 
 
-def _stretch(read, lo: int, hi: int, block: int, setup: tuple, progress=None, stage: str = "") -> _Partial:
-    """The pass over samples ``lo <= n < hi`` (``lo`` a multiple of ``block``)."""
-    sample_rate_hz, nfft_psd, kind, clip_level, path, trace, stride = setup
+def _stretch(read, lo: int, hi: int, block: int, setup: tuple, trace: _Trace | None = None,
+             progress=None, stage: str = "") -> _Partial:
+    """The pass over samples ``lo <= n < hi`` (``lo`` a multiple of ``block``); trace frames go into ``trace``."""
+    sample_rate_hz, nfft_psd, kind, clip_level, path, stride = setup
     nfft = acquire.SPECTROGRAM_NFFT
     part = _Partial(_Periodograms(nfft, acquire.SPECTROGRAM_CELLS, stride),
-                    _Periodograms(nfft_psd, None, 1) if nfft_psd != nfft else None,
-                    _Trace(trace, sample_rate_hz) if trace is not None else None, [], [])
+                    _Periodograms(nfft_psd, None, 1) if nfft_psd != nfft else None, [], [])
     pos = lo
     while pos < hi:
         x = read(pos, min(block, hi - pos))
         if len(x) == 0:
             break
-        if part.trace is not None:
+        if trace is not None:
             # the trace frames carry each frame's sum (its 0 Hz bin) and energy (Parseval)
-            tf = part.trace.add(x, pos)
-            whole = len(tf.energy) * trace.frame
+            tf = trace.add(x, pos)
+            whole = len(tf.energy) * trace.spec.frame
             sm, en = tf.dc_bin, tf.energy
             if whole < len(x):                   # the capture's last, partial frame
                 sm_t, en_t = _quantum_sums(x[whole:])
+                part.sums.append(sm_t)
+                part.energies.append(en_t)
                 sm, en = np.concatenate((sm, sm_t)), np.concatenate((en, en_t))
         else:
             sm, en = _quantum_sums(x)
+            part.sums.append(sm)
+            part.energies.append(en)
         if not (np.all(np.isfinite(sm)) and np.all(np.isfinite(en))):
             _first_bad(x, pos, path)
-        part.sums.append(sm)
-        part.energies.append(en)
         if clip_level is not None:
             over = np.abs(x.real) >= clip_level
             if kind != "audio":          # audio: the imaginary part is computed, not stored
@@ -297,10 +316,6 @@ def _merge(parts: list[_Partial]) -> _Partial:
                 a.psd += b.psd
                 a.xsum += b.xsum
                 a.n += b.n
-        if first.trace is not None:
-            first.trace.power += p.trace.power
-            first.trace.noise += p.trace.noise
-            first.trace.dc_bin += p.trace.dc_bin
         first.sums += p.sums
         first.energies += p.energies
         first.clipped += p.clipped
@@ -316,11 +331,12 @@ _STRETCHES_PER_WORKER = 4
 
 
 def _stretch_task(ctx: tuple, lo: int, hi: int) -> _Partial:
-    read, block, setup = ctx
-    return _stretch(read, lo, hi, block, setup)
+    read, block, setup, trace = ctx
+    return _stretch(read, lo, hi, block, setup, trace)
 
 
-def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, workers: int, progress, stage):
+def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, trace: _Trace | None, workers: int,
+                        progress, stage):
     """The pass over the whole capture, split in stretches among forked workers."""
     from .workers import fork_map
 
@@ -330,7 +346,7 @@ def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, workers:
     cuts[-1] = n_samples
     bounds = [(a, min(b, n_samples)) for a, b in zip(cuts[:-1], cuts[1:]) if a < min(b, n_samples)]
     parts = []
-    for part in fork_map(_stretch_task, (read, block, setup), bounds, workers):
+    for part in fork_map(_stretch_task, (read, block, setup, trace), bounds, workers):
         parts.append(part)
         if progress:
             progress(part.end, n_samples, stage)
@@ -378,14 +394,16 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
     InputError
         At the first sample that is not a finite number.
     """
-    setup = (sample_rate_hz, nfft_psd, kind, clip_level, path, trace, stride)
-    if workers > 1 and n_samples >= PARALLEL_MIN_SAMPLES and n_samples > block:
-        part = _parallel_stretches(read, n_samples, block, setup, workers, progress, stage)
+    setup = (sample_rate_hz, nfft_psd, kind, clip_level, path, stride)
+    parallel = workers > 1 and n_samples >= PARALLEL_MIN_SAMPLES and n_samples > block
+    frames = _Trace(trace, sample_rate_hz, n_samples, shared=parallel) if trace is not None else None
+    if parallel:
+        part = _parallel_stretches(read, n_samples, block, setup, frames, workers, progress, stage)
     else:
-        part = _stretch(read, 0, n_samples, block, setup, progress, stage)
+        part = _stretch(read, 0, n_samples, block, setup, frames, progress, stage)
     n = max(part.end, 1)
-    sm = np.concatenate(part.sums) if part.sums else np.zeros(1, complex)
-    en = np.concatenate(part.energies) if part.energies else np.zeros(1)
+    sm = np.concatenate(([] if frames is None else [frames.dc_bin]) + part.sums + [np.zeros(1, complex)])
+    en = np.concatenate(([] if frames is None else [frames.energy]) + part.energies + [np.zeros(1)])
     total_e = float(np.sum(en))
     dc = complex(np.sum(sm)) / n
     # (a frame energy formed in single precision can underflow where its sum does not)
@@ -393,13 +411,13 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
     freqs, psd = (part.short or part.main).spectrum(dc, sample_rate_hz)
     return Survey(mean=dc, power=total_e / n, clipped=part.clipped, any_signal=any_signal,
                   spectrogram=part.main.spectrogram(dc), spectrogram_stride=stride, freqs=freqs, psd=psd,
-                  trace=part.trace.result(dc) if part.trace is not None else None)
+                  trace=frames.result(dc) if frames is not None else None)
 
 
 def trace_pass(read, n_samples: int, sample_rate_hz: float, block: int, spec: TraceSpec, dc: complex = 0j,
                progress=None, stage: str = "power trace") -> acquire.PowerTrace:
     """One more pass over the raw samples for the band-power trace (DC offset ``dc`` removed)."""
-    tr = _Trace(spec, sample_rate_hz)
+    tr = _Trace(spec, sample_rate_hz, n_samples)
     for pos, x in blocks(read, n_samples, block, progress, stage):
         tr.add(x, pos)
     return tr.result(dc)
