@@ -269,17 +269,19 @@ def _resolve_reference(opts: AnalysisOptions, bits: np.ndarray, bits_file_text: 
     return prbs.Reference.prbs(ref, inverted=inverted)
 
 
-def _count(bits: np.ndarray, ref) -> tuple[prbs.ErrorCount | None, bool]:
+def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[prbs.ErrorCount | None, bool]:
     """Count errors; return the count and whether a ONE rides on the low tone.
 
     For a PRBS the polarity found by detection already fixes the mapping; for
     an explicit pattern both mappings are tried and the better kept.
     ``expected`` in the returned count is always in tone-index space.
+    ``hint`` is a PRBS alignment from an earlier count of nearly these bits
+    (see :func:`prbs.count_errors`).
     """
     if ref is None:
         return None, False
     if ref.is_prbs:
-        return prbs.count_errors(bits, ref), bool(ref.inverted)
+        return prbs.count_errors(bits, ref, alignment_hint=hint), bool(ref.inverted)
     direct = prbs.count_errors(bits, ref)
     swapped = prbs.count_errors(bits ^ np.uint8(1), ref)
     if swapped.synced and (not direct.synced or swapped.errors < direct.errors):
@@ -391,13 +393,18 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         return acquire.refine_timing(x, x_start, g, tn, fs, energy=energy_for(tn, g))
 
     counted: dict = {}
+    aligned: dict = {}        # reference -> the alignment its last synced count began with
 
     def count(bits, reference):
-        """``_count``, once per distinct (decisions, reference): decisions often survive a pass unchanged."""
+        """``_count``, once per distinct (decisions, reference): decisions often survive a pass
+        unchanged; a new count of the same reference starts from the last one's alignment."""
         key = (id(reference), bits.tobytes())
         if key not in counted:
             counted.clear()
-            counted[key] = (reference, _count(bits, reference))
+            got = _count(bits, reference, aligned.get(id(reference)))
+            counted[key] = (reference, got)
+            if got[0] is not None and got[0].synced:
+                aligned[id(reference)] = got[0].alignment
         return counted[key][1]
 
     # timing on the starting tones, decisions, and pattern sync on them
@@ -562,7 +569,7 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     dec_ext = decide.square_law(z)
     bits = dec_ext
     if ec is not None and ec.synced and ec.bits > 0:
-        ec_ext, _ = _count(dec_ext, ref)
+        ec_ext, _ = _count(dec_ext, ref, ec.alignment - pre)    # bit k of the burst is bit k + pre here
         if ec_ext.synced:
             bits = ec_ext.expected.astype(np.int64)
     # fitted levels from the burst's own symbols (decisions)

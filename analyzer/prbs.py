@@ -482,6 +482,9 @@ class ErrorCount:
         in excluded stretches after it 0).
     sync_position : int
         Index of the first compared bit, -1 when not synced.
+    alignment : int
+        The first alignment ``a`` (received bit ``k`` against reference bit
+        ``(k + a) mod period``), -1 when not synced.
     """
 
     reference: str
@@ -492,6 +495,7 @@ class ErrorCount:
     counted: np.ndarray
     expected: np.ndarray
     sync_position: int
+    alignment: int = -1
 
     @property
     def rate(self) -> float:
@@ -615,7 +619,14 @@ def _signed(d: int, period: int) -> int:
     return (d + period // 2) % period - period // 2
 
 
-def count_errors(bits: np.ndarray, ref: Reference, window: int | None = None) -> ErrorCount:
+#: A PRBS alignment hint is taken without proposing candidates only when its
+#: error rate is at most this: any other alignment of an m-sequence agrees
+#: with the received bits half the time, so none can then beat it.
+HINT_MAX_RATE = 0.25
+
+
+def count_errors(bits: np.ndarray, ref: Reference, window: int | None = None,
+                 alignment_hint: int | None = None) -> ErrorCount:
     """Align received bits with a reference, follow slips and count bit errors.
 
     Parameters
@@ -628,6 +639,14 @@ def count_errors(bits: np.ndarray, ref: Reference, window: int | None = None) ->
         Window length W in bits for sync decisions.  Default ``max(64, 8*order)``
         for a PRBS and ``max(64, 8*ceil(log2(L+1)))`` for an explicit pattern of
         length L.
+    alignment_hint : int, optional
+        PRBS: an alignment the first sync is likely to find (from an earlier
+        count of nearly the same bits).  The first ``order``-bit window of the
+        first ``4W`` that agrees with it is the vote first sync would seed from;
+        when the ``4W`` bits after it give an error rate of at most
+        :data:`HINT_MAX_RATE` the hint is accepted as first sync would accept
+        it, without proposing candidates (the same result: every other
+        alignment scores about 0.5 there).  Otherwise first sync runs as usual.
 
     Returns
     -------
@@ -759,7 +778,23 @@ def count_errors(bits: np.ndarray, ref: Reference, window: int | None = None) ->
             counted[lo:hi] = True
             expected[lo:hi] = al.expected(a, lo, hi)
 
-    first = acquire(0)
+    def from_hint(a: int) -> tuple[int, int] | None:
+        """First sync seeded from the earliest window in the first 4W that agrees with ``a``."""
+        a = int(a) % al.period
+        hi = min(n_bits, 4 * W + order - 1)
+        agree = np.concatenate(([0], np.cumsum(b[:hi] == al.expected(a, 0, hi))))
+        whole = np.flatnonzero(agree[order:] - agree[:-order] == order)
+        if whole.size == 0:
+            return None
+        c0 = int(whole[0]) + order
+        v_hi = min(n_bits, c0 + 4 * W)
+        if v_hi - c0 < 2 * W or al.error_rate(a, c0, v_hi) > HINT_MAX_RATE:
+            return None
+        return a, c0
+
+    first = from_hint(alignment_hint) if alignment_hint is not None and ref.is_prbs else None
+    if first is None:
+        first = acquire(0)
     if first is None:
         return unsynced()
     a, seg = first
@@ -813,4 +848,4 @@ def count_errors(bits: np.ndarray, ref: Reference, window: int | None = None) ->
         scan = seg
     n_counted = int(np.count_nonzero(counted))
     n_err = int(np.count_nonzero(b[counted] != expected[counted]))
-    return ErrorCount(label, n_counted, n_err, slips, True, counted, expected, sync_position)
+    return ErrorCount(label, n_counted, n_err, slips, True, counted, expected, sync_position, first[0])

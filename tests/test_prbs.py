@@ -294,3 +294,25 @@ def test_parse_bits_text_bad_character(text, char, line):
 def test_parse_bits_text_empty(text):
     with pytest.raises(InputError, match="no bits"):
         parse_bits_text(text)
+
+
+@pytest.mark.parametrize("name,ber,inverted", [("PN9", 0.0, False), ("PN9", 0.02, True), ("PN11", 0.1, False),
+                                              ("PN15", 0.2, False), ("PN23", 0.05, True)])
+def test_alignment_hint_gives_the_same_count(name, ber, inverted):
+    # Reference: the count without a hint (rules of count_errors). By construction the
+    # streams carry errors at the given BER and two slips; the hint is the alignment found
+    # without it, then a wrong one (which must fall back to the full search).
+    rng = np.random.default_rng(41)
+    _, x, flips = _received(name, inverted, 6000, ber, rng)
+    y0 = x ^ flips.astype(np.uint8)
+    y = np.concatenate([y0[:2000], [1 - y0[2000]], y0[2000:4000], y0[4001:]]).astype(np.uint8)
+    ref = Reference.prbs(name, inverted=inverted)
+    plain = count_errors(y, ref)
+    assert plain.synced and plain.alignment >= 0
+    for hint in (plain.alignment, plain.alignment + 7, plain.alignment - 3 + ref.period):
+        hinted = count_errors(y, ref, alignment_hint=hint)
+        # tolerance: exactly equal, field by field
+        assert (hinted.bits, hinted.errors, hinted.slips, hinted.sync_position, hinted.alignment) == \
+            (plain.bits, plain.errors, plain.slips, plain.sync_position, plain.alignment)
+        np.testing.assert_array_equal(hinted.counted, plain.counted)
+        np.testing.assert_array_equal(hinted.expected, plain.expected)
