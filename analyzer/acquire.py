@@ -868,6 +868,17 @@ def grid_for_span(phase_sample: float, symbol_rate_hz: float, sample_rate_hz: fl
     return symbol_grid(first, sps, max(n, 0))
 
 
+def line_fit(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
+    """Least-squares line ``y ~ slope x + intercept`` (as ``numpy.polyfit(x, y, 1)``), in closed form."""
+    x = np.asarray(x, float)
+    y = np.asarray(y, float)
+    xm, ym = float(np.mean(x)), float(np.mean(y))
+    dx = x - xm
+    sxx = float(np.dot(dx, dx))
+    slope = float(np.dot(dx, y - ym)) / sxx if sxx > 0 else 0.0
+    return slope, ym - slope * xm
+
+
 def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
                   blocks: int = 4, span: float | None = None, step: float | None = None,
                   energy: EnergyTrace | None = None) -> SymbolGrid:
@@ -930,7 +941,7 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
         best[b] = 0.5 * (deltas[lo] + deltas[hi])
     centres = 0.5 * (edges[:-1] + edges[1:] - 1)
     if blocks >= 2:
-        slope, icpt = np.polyfit(centres, best, 1)
+        slope, icpt = line_fit(centres, best)
     else:
         slope, icpt = 0.0, best[0]
     return symbol_grid(grid.first_start + icpt, grid.samples_per_symbol + slope, n)

@@ -312,8 +312,14 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: f
     grid = acquire.grid_for_span(tm.phase_sample, tm.symbol_rate_hz, fs, x_start, x_start + len(x) - 1)
     if grid.n_symbols < 1:
         return []
-    out = branches.correlate(x, x_start, grid, tones, fs)
-    energy = np.sum(np.abs(out.z) ** 2, axis=1)
+    # each symbol's correlator energy |z0|^2 + |z1|^2 is the window energy at its first sample
+    out = None
+    at = grid.first_samples - et.first
+    if et.window == grid.window and at.min() >= 0 and at.max() < len(et.values):
+        energy = et.values[at]
+    else:
+        out = branches.correlate(x, x_start, grid, tones, fs)
+        energy = np.sum(np.abs(out.z) ** 2, axis=1)
     segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=min_symbols)
     span = _Span(tm, et, len(segs) == 1, out)
     return [(grid, f, s, span) for f, s in segs]
@@ -381,16 +387,35 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         if stop <= g0.n_symbols and grid.window == g0.window and np.array_equal(
                 grid.first_samples, g0.first_samples[first:stop]):
             out = branches.BranchOutputs(z=span.outputs.z[idx], tones_hz=tones, grid=grid)
-    if out is None:
-        out = branches.correlate(x, x_start, grid, tones, fs)
-    dec = decide.square_law(out.z)
-    continuity = estimate.phase_continuity(out.z, dec)
-    continuous = bool(np.isfinite(continuity) and continuity > 0.5)
+    continuous = False
 
     def retime(g, tn, bits):
         if continuous:
             return acquire.transition_timing(x, x_start, g, tn, fs, bits)
         return acquire.refine_timing(x, x_start, g, tn, fs, energy=energy_for(tn, g))
+
+    def keying(z, bits) -> bool:
+        c = estimate.phase_continuity(z, bits)
+        return bool(np.isfinite(c) and c > 0.5)
+
+    if out is not None:
+        dec = decide.square_law(out.z)
+        continuous = keying(out.z, dec)
+        grid = retime(grid, tones, dec)
+        out = _correlate_again(x, x_start, grid, tones, fs, out)
+    else:
+        # the keying is judged on outputs after the energy-metric timing, which
+        # a phase-discontinuous burst keeps; a continuous-phase one is timed
+        # again from the tone transitions, starting from the line's grid
+        line_grid = grid
+        grid = retime(grid, tones, None)
+        out = branches.correlate(x, x_start, grid, tones, fs)
+        dec = decide.square_law(out.z)
+        continuous = keying(out.z, dec)
+        if continuous:
+            grid = retime(line_grid, tones, dec)
+            out = _correlate_again(x, x_start, grid, tones, fs, out)
+    dec = decide.square_law(out.z)
 
     counted: dict = {}
     aligned: dict = {}        # reference -> the alignment its last synced count began with
@@ -407,10 +432,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
                 aligned[id(reference)] = got[0].alignment
         return counted[key][1]
 
-    # timing on the starting tones, decisions, and pattern sync on them
-    grid = retime(grid, tones, dec)
-    out = _correlate_again(x, x_start, grid, tones, fs, out)
-    dec = decide.square_law(out.z)
+    # pattern sync on the decisions made with the starting tones
     ref = _resolve_reference(opts, dec, bits_text)
     ec, low_one = count(dec, ref)
     synced = ec is not None and ec.synced and ec.bits > 0

@@ -194,6 +194,15 @@ def test_floor_track_follows_a_step_in_the_noise_level():
     assert np.all(track[n // 2 + 80:] > 0.5 * (1 + 10 ** 0.6))
 
 
+def test_line_fit_matches_numpy_polyfit():
+    # reference: numpy.polyfit of degree 1 (least squares)
+    rng = np.random.default_rng(15)
+    for n in (2, 4, 9):
+        x = np.sort(rng.uniform(-5, 50, n))
+        y = 0.3 * x - 2.0 + rng.standard_normal(n)
+        np.testing.assert_allclose(acquire.line_fit(x, y), np.polyfit(x, y, 1), rtol=1e-10, atol=1e-12)
+
+
 def test_dc_removed_after_the_pass_equals_dc_removed_before():
     from analyzer import survey
 
