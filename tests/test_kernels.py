@@ -91,6 +91,27 @@ def test_narrow_spectrum_matches_zoom_fft(n, half_hz):
     assert np.argmax(np.abs(got)) == np.argmax(np.abs(ref))
 
 
+@pytest.mark.parametrize("n, ppm", [(88_000, 3000.0), (20_000, 10000.0)])
+def test_line_search_matches_zoom_fft(n, ppm):
+    # reference: scipy.signal.zoom_fft (the DTFT on a grid) around the line and 8..64 cells out
+    rng = np.random.default_rng(n)
+    fs, rate = 1e6, 50e3 * (1 + 0.4 * ppm * 1e-6)
+    t = np.arange(n)
+    v = np.cos(2 * np.pi * rate * t / fs + 0.4) + 3.0 * rng.standard_normal(n)
+    lo, hi = 50e3 * (1 - ppm * 1e-6), 50e3 * (1 + ppm * 1e-6)
+    got_rate, got_peak, got_q = acquire._line_search(v, fs, lo, hi)
+    res = fs / n
+    f = np.arange(lo, hi, res / 64)
+    ref = np.abs(signal.zoom_fft(v, [f[0], f[-1]], m=len(f), fs=fs, endpoint=True)) ** 2
+    i = int(np.argmax(ref))
+    assert abs(got_rate - f[i]) < 0.02 * res                    # parabola on a 1/8-cell grid: 2% of a cell
+    assert got_peak == pytest.approx(ref[i], rel=0.01)
+    g = rate + np.arange(-64, 64.25, 0.5) * res
+    side = np.abs(signal.zoom_fft(v, [g[0], g[-1]], m=len(g), fs=fs, endpoint=True)) ** 2
+    ref_q = ref[i] / np.median(side[np.abs(g - rate) / res >= 8])
+    assert got_q == pytest.approx(ref_q, rel=0.03)              # median of 225 points: a few % apart
+
+
 @pytest.mark.parametrize("n, nu, sigma", [(2000, 3.0, 1.3), (50, 1.0, 0.7), (12000, 2.0, 1.0), (500, 0.0, 1.3)])
 def test_ks_check_matches_scipy_kstest(n, nu, sigma):
     rng = np.random.default_rng(n)
