@@ -591,9 +591,13 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     dec_ext = decide.square_law(z)
     bits = dec_ext
     if ec is not None and ec.synced and ec.bits > 0:
-        ec_ext, _ = _count(dec_ext, ref, ec.alignment - pre)    # bit k of the burst is bit k + pre here
-        if ec_ext.synced:
-            bits = ec_ext.expected.astype(np.int64)
+        if ref.is_prbs and ec.slips == 0:
+            # one alignment throughout: the pattern carried on over the symbols beyond each edge
+            bits = ref.expected(ec.alignment, -pre, n + post).astype(np.int64)
+        else:
+            ec_ext, _ = _count(dec_ext, ref, ec.alignment - pre)    # bit k of the burst is bit k + pre here
+            if ec_ext.synced:
+                bits = ec_ext.expected.astype(np.int64)
     # fitted levels from the burst's own symbols (decisions)
     p = np.abs(out.z) ** 2
     on = p[np.arange(n), dec]
@@ -603,14 +607,18 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     if not (g2 > 0 and s2 > 0):
         return None
     g = np.sqrt(g2)
-    b_idx = np.asarray(bits, np.int64) % 2
-    r = np.abs(z[np.arange(ext.n_symbols), b_idx])
-    llr = decide.log_i0(2 * g * r / s2) - g2 / s2
+    # the ratio of the symbols within EDGE_SYMBOLS of each edge (the only ones looked at below)
+    near = np.r_[0:min(pre + EDGE_SYMBOLS, ext.n_symbols), max(pre + n - EDGE_SYMBOLS, 0):ext.n_symbols]
+    b_idx = np.asarray(bits, np.int64)[near] % 2
+    r = np.abs(z[near, b_idx])
+    llr = np.full(ext.n_symbols, np.nan)
+    llr_near = decide.log_i0(2 * g * r / s2) - g2 / s2
     # correlated tones: the other branch carries the leakage |rho| g when the tone is there
     rho = abs(branches.template_correlation(tones, fs, grid.window))
     if rho > 0.05:
-        r_o = np.abs(z[np.arange(ext.n_symbols), 1 - b_idx])
-        llr = llr + decide.log_i0(2 * rho * g * r_o / s2) - (rho * g) ** 2 / s2
+        r_o = np.abs(z[near, 1 - b_idx])
+        llr_near = llr_near + decide.log_i0(2 * rho * g * r_o / s2) - (rho * g) ** 2 / s2
+    llr[near] = llr_near
     first, stop = pre, pre + n                  # current edges in the extended grid
     tau = EDGE_LLR
     while first > 0 and llr[first - 1] > tau:

@@ -158,6 +158,14 @@ def _raw_period(name: str) -> np.ndarray:
     return seq
 
 
+@functools.lru_cache(maxsize=None)
+def _flipped_period(name: str) -> np.ndarray:
+    """One period of the inverted register output, read-only, cached."""
+    seq = _raw_period(name) ^ np.uint8(1)
+    seq.flags.writeable = False
+    return seq
+
+
 def _window_states(bits: np.ndarray, order: int) -> np.ndarray:
     """Integer value of every ``order``-bit window, first bit most significant.
 
@@ -384,9 +392,13 @@ class Reference:
         if not self.is_prbs:
             return self.bits
         spec = PATTERNS[self.name]
-        flip = spec.inverted != self.inverted
-        raw = _raw_period(self.name)
-        return raw ^ np.uint8(1) if flip else raw
+        return _flipped_period(self.name) if spec.inverted != self.inverted else _raw_period(self.name)
+
+    def expected(self, alignment: int, lo: int, hi: int) -> np.ndarray:
+        """Reference bits for received bits ``lo <= k < hi`` under ``alignment`` (see :class:`ErrorCount`);
+        ``lo`` may be negative (bits before the first received one)."""
+        seq = self.sequence()
+        return seq[(np.arange(lo, hi, dtype=np.int64) + int(alignment)) % seq.size]
 
     def __eq__(self, other):
         if not isinstance(other, Reference):

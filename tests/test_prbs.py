@@ -316,3 +316,14 @@ def test_alignment_hint_gives_the_same_count(name, ber, inverted):
             (plain.bits, plain.errors, plain.slips, plain.sync_position, plain.alignment)
         np.testing.assert_array_equal(hinted.counted, plain.counted)
         np.testing.assert_array_equal(hinted.expected, plain.expected)
+
+
+def test_reference_expected_bits_follow_the_count_alignment():
+    # Reference: the count's own expected bits (rules of count_errors) and the pattern's period
+    # (O.150: PN9 repeats every 511 bits) for bits before the first one.
+    rng = np.random.default_rng(43)
+    _, x, flips = _received("PN9", True, 3000, 0.01, rng)
+    ref = Reference.prbs("PN9", inverted=True)
+    c = count_errors(x ^ flips.astype(np.uint8), ref)
+    np.testing.assert_array_equal(ref.expected(c.alignment, 0, 3000), c.expected)        # exact
+    np.testing.assert_array_equal(ref.expected(c.alignment, -10, 0), ref.expected(c.alignment, 501, 511))
