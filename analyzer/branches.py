@@ -237,11 +237,34 @@ def correlate_at(x: np.ndarray, x_start: int, first_samples: np.ndarray, window:
     for lo in range(0, firsts.size, chunk):
         hi = min(lo + chunk, firsts.size)
         n0 = firsts[lo:hi]
-        rows = _windows(x, n0 - x_start, L)               # (k, L)
-        acc = rows @ base                                 # (k, 2)
-        rot = phasors(f, sample_rate_hz, n0)
-        z[lo:hi] = acc * rot
+        z[lo:hi] = _window_products(x, n0 - x_start, L, base) * phasors(f, sample_rate_hz, n0)
     return z
+
+
+#: Runs of back-to-back windows taken as views (no copy) when there are at most this many.
+_MAX_RUNS = 32
+
+
+def _window_products(x: np.ndarray, local_first: np.ndarray, window: int, base: np.ndarray) -> np.ndarray:
+    """``rows @ base`` for the rows ``x[s : s + window]``, ``s`` in ``local_first``.
+
+    Windows that follow each other back to back (the usual case: a symbol
+    period a hair over a whole number of samples) are a reshaped view of
+    ``x``; only when the starts break into many runs are the rows copied out.
+    """
+    n = local_first.size
+    if n == 0:
+        return np.zeros((0, base.shape[1]), dtype=np.result_type(x, base))
+    if local_first.min() < 0 or local_first.max() + window > len(x):
+        raise ValueError("symbol grid runs outside the samples given")
+    cuts = np.flatnonzero(np.diff(local_first) != window) + 1
+    if cuts.size >= _MAX_RUNS:
+        return _windows(x, local_first, window) @ base
+    out = np.empty((n, base.shape[1]), dtype=np.result_type(x, base))
+    for a, b in zip(np.r_[0, cuts], np.r_[cuts, n]):
+        s0 = int(local_first[a])
+        out[a:b] = x[s0:s0 + (b - a) * window].reshape(b - a, window) @ base
+    return out
 
 
 def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: int, tones_hz,

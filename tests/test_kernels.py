@@ -91,6 +91,19 @@ def test_narrow_spectrum_matches_zoom_fft(n, half_hz):
     assert np.argmax(np.abs(got)) == np.argmax(np.abs(ref))
 
 
+@pytest.mark.parametrize("sps", [20.0003, 20.5, 19.98, 16.0])
+def test_window_products_equal_explicit_sums(sps):
+    # reference: numpy.dot of each window with the templates, one symbol at a time
+    rng = np.random.default_rng(int(sps * 100))
+    x = rng.standard_normal(30000) + 1j * rng.standard_normal(30000)
+    L = int(np.floor(sps + 0.02))
+    base = rng.standard_normal((L, 2)) + 1j * rng.standard_normal((L, 2))
+    first = np.ceil(7.3 + np.arange(1200) * sps - 1e-9).astype(np.int64)
+    got = branches._window_products(x, first, L, base)
+    ref = np.array([x[s:s + L] @ base for s in first])
+    np.testing.assert_allclose(got, ref, rtol=1e-12, atol=1e-12)          # rounding only
+
+
 @pytest.mark.parametrize("n, ppm", [(88_000, 3000.0), (20_000, 10000.0)])
 def test_line_search_matches_zoom_fft(n, ppm):
     # reference: scipy.signal.zoom_fft (the DTFT on a grid) around the line and 8..64 cells out
