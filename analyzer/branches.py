@@ -108,6 +108,10 @@ class SymbolGrid:
         """First whole sample used by each symbol (``ceil`` of its start; read-only, computed once)."""
         return _read_only(np.ceil(self.starts - 1e-9).astype(np.int64))
 
+    def __getstate__(self):
+        # the cached positions are not pickled (a grid sent between processes is recomputed on demand)
+        return {k: v for k, v in self.__dict__.items() if k not in ("starts", "first_samples")}
+
     @property
     def stop(self) -> float:
         """Fractional sample just after the last symbol."""
