@@ -967,54 +967,8 @@ class DecisionGain:
 
 #: Accuracy of the gain (dB): the root lies within this of the returned Eb/N0.
 _GAIN_XTOL_DB = 1e-4
-
-
-def _decreasing_root(f, y0: float, f0: float, y1: float, lo: float, hi: float, xtol: float,
-                     maxiter: int = 40) -> float | None:
-    """Root of a decreasing function on ``[lo, hi]`` to within ``xtol``, by safeguarded secant steps.
-
-    ``f0 = f(y0)`` is known; ``y1`` is a first guess.  Each step is the secant
-    of the last two points, replaced by a bisection of the bracket when it
-    falls outside it, and lengthened to ``xtol / 2`` when shorter, so that once
-    the iterates converge the next point lands across the root.  Stops when the
-    root lies in a bracket of width at most ``xtol`` (the returned value is
-    the secant point inside it, as ``scipy.optimize.brentq`` returns a point
-    within ``xtol`` of the root); None when no sign change is found within
-    ``maxiter`` evaluations or the steps leave ``[lo, hi]``.
-
-    References
-    ----------
-    .. [1] R. P. Brent, *Algorithms for Minimization without Derivatives*,
-       Prentice Hall, 1973 (safeguarded secant and bisection steps) -- from memory.
-    """
-    if f0 == 0:
-        return y0
-    below, above = (y0, f0) if f0 > 0 else (None, None), (y0, f0) if f0 < 0 else (None, None)
-    prev = (y0, f0)
-    y = y1
-    for _ in range(maxiter):
-        if below[0] is not None and above[0] is not None and not (below[0] < y < above[0]):
-            y = 0.5 * (below[0] + above[0])
-        if not (lo <= y <= hi):
-            return None
-        fy = f(y)
-        if fy == 0:
-            return y
-        if fy > 0:
-            below = (y, fy)            # f decreasing: the root lies above y
-        else:
-            above = (y, fy)
-        if below[0] is not None and above[0] is not None and above[0] - below[0] <= xtol:
-            (a, fa), (b, fb) = below, above
-            return a + (b - a) * fa / (fa - fb)
-        step = -fy * (y - prev[0]) / (fy - prev[1]) if fy != prev[1] else 0.0
-        if abs(step) < 0.5 * xtol:
-            # converged: step past the estimated root so the bracket closes
-            toward = 1.0 if fy > 0 else -1.0
-            step = toward * 0.5 * xtol if step == 0 else np.copysign(0.5 * xtol, step)
-        prev = (y, fy)
-        y = y + step
-    return None
+#: Half-width (dB) of the first root search around the one-step estimate.
+_GAIN_NEAR_DB = 0.05
 
 
 def decision_gain(ebn0: float, imbalance_db: float) -> DecisionGain:
@@ -1037,11 +991,11 @@ def decision_gain(ebn0: float, imbalance_db: float) -> DecisionGain:
     square-law BER at ``x`` is the root of ``ln Pb_lr(y) - ln Pb_sq(x)``
     (decreasing in ``y``) in ``[x - 6, x + 0.5]``, found to within
     ``_GAIN_XTOL_DB`` = 1e-4 dB.  The root lies close to ``x`` for the
-    imbalances met in practice, so the search starts at ``x`` (where the value
-    is already known) with a step along the slope of the square-law curve and
-    goes on by safeguarded secant steps (:func:`_decreasing_root`); if those
-    find no sign change it falls back to ``scipy.optimize.brentq`` over the
-    whole bracket.  The gain is ``nan`` when the bracket holds no root.
+    imbalances met in practice: one step from ``x`` along the slope of the
+    square-law curve (closed form) estimates it, and ``scipy.optimize.brentq``
+    searches +-:data:`_GAIN_NEAR_DB` around that estimate, or the whole bracket
+    when the root is not there.  The gain is ``nan`` when the bracket holds no
+    root.
 
     References
     ----------
@@ -1080,10 +1034,12 @@ def decision_gain(ebn0: float, imbalance_db: float) -> DecisionGain:
          - np.log(float(theory.ber_square_law(*split(10 ** ((x_db - d) / 10)))))) / (2 * d)
     f0 = np.log(max(p_lr, 1e-300)) - log_sq
     y1 = x_db - f0 / s if s < 0 else x_db - 0.01
-    y = _decreasing_root(f, x_db, f0, y1, lo, hi, _GAIN_XTOL_DB)
-    if y is None:                       # not found near x_db: the whole bracket, as a general root finder
-        if f(lo) * f(hi) > 0:
-            return DecisionGain(p_sq, p_lr, float("nan"))
+    a, b = max(lo, y1 - _GAIN_NEAR_DB), min(hi, y1 + _GAIN_NEAR_DB)
+    if a < b and f(a) > 0 > f(b):       # f decreases: the root is near the estimate
+        y = optimize.brentq(f, a, b, xtol=_GAIN_XTOL_DB)
+    elif f(lo) * f(hi) > 0:
+        return DecisionGain(p_sq, p_lr, float("nan"))
+    else:
         y = optimize.brentq(f, lo, hi, xtol=_GAIN_XTOL_DB)
     return DecisionGain(p_sq, p_lr, float(x_db - y))
 
