@@ -222,7 +222,7 @@ def _ks_cdf_pelz_good(n: int, x: float) -> float:
     ``P(D_n <= x) ~ K0(z) + K1(z)/sqrt(n) + K2(z)/n + K3(z)/n^1.5`` with
     ``z = x sqrt(n)`` (Li-Chien and Korolyuk), each ``K_i`` in the Jacobi
     theta form suited to small ``z`` and summed over odd and over all integers
-    up to ``ceil(16 z / pi)``; the same terms in the same order as
+    up to ``ceil(16 z / pi)``; the same terms as
     ``scipy.stats._ksstats._kolmogn_PelzGood``, on Python floats (a handful of
     distances per burst: numpy's per-call cost would dominate).
 
@@ -270,22 +270,9 @@ def _ks_cdf_pelz_good(n: int, x: float) -> float:
         qk = q ** kk
         t2.append(kk * qk)
         t3.append((_SQRT_3 * z + math.pi * k) * (_SQRT_3 * z - math.pi * k) * kk * qk)
-    s2 += _sum_like_numpy(t2) * (_PI_SQUARED * _SQRT_2PI / (-36 * z3))
-    s3 += _sum_like_numpy(t3) * (_PI_SQUARED * _SQRT_2PI / (216 * z6))
+    s2 += math.fsum(t2) * (_PI_SQUARED * _SQRT_2PI / (-36 * z3))
+    s3 += math.fsum(t3) * (_PI_SQUARED * _SQRT_2PI / (216 * z6))
     return s0 + s1 / n ** 0.5 + s2 / n ** 1.0 + s3 / n ** 1.5
-
-
-def _sum_like_numpy(v: list) -> float:
-    """Sum of a few floats in the order ``numpy.sum`` adds them (blocks of eight pairwise, then one by one)."""
-    if len(v) < 8:
-        s = 0.0
-        for x in v:
-            s += x
-        return s
-    s = ((v[0] + v[1]) + (v[2] + v[3])) + ((v[4] + v[5]) + (v[6] + v[7]))
-    for x in v[8:]:
-        s += x
-    return s
 
 
 def _smirnov_sf(n: int, x: float) -> float:
