@@ -676,7 +676,7 @@ def _block_sums(y: np.ndarray) -> np.ndarray:
 
 
 def narrow_spectrum(v: np.ndarray, sample_rate_hz: float, centre_hz: float, half_width_hz: float,
-                    step_hz: float, mixer: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+                    step_hz: float) -> tuple[np.ndarray, np.ndarray]:
     """The DTFT ``V(f) = sum_n v[n] exp(-j 2 pi f n / fs)`` on a fine grid over a narrow band.
 
     ``v`` is mixed down by ``centre_hz`` and summed in blocks of ``D`` samples,
@@ -702,9 +702,6 @@ def narrow_spectrum(v: np.ndarray, sample_rate_hz: float, centre_hz: float, half
         Band evaluated: ``centre +- half_width``.
     step_hz : float
         Largest grid spacing wanted.
-    mixer : numpy.ndarray, optional
-        ``oscillator(centre_hz, sample_rate_hz, 0, len(v))`` when the caller
-        has it already (it is used instead of a new one).
 
     Returns
     -------
@@ -715,7 +712,7 @@ def narrow_spectrum(v: np.ndarray, sample_rate_hz: float, centre_hz: float, half
     """
     fs = float(sample_rate_hz)
     d = _block_length(fs, half_width_hz, len(v))
-    blocks = _mixed_blocks(v, fs, centre_hz, d, mixer)
+    blocks = _mixed_blocks(v, fs, centre_hz, d)
     return _blocks_spectrum(blocks, fs, centre_hz, half_width_hz, step_hz)
 
 
@@ -735,10 +732,10 @@ class _Blocks:
     t_rest: float
 
 
-def _mixed_blocks(v: np.ndarray, fs: float, centre_hz: float, d: int, mixer=None) -> _Blocks:
+def _mixed_blocks(v: np.ndarray, fs: float, centre_hz: float, d: int) -> _Blocks:
     n = len(v)
     nb = n // d
-    osc = mixer if mixer is not None and len(mixer) == n else oscillator(centre_hz, fs, 0, n)
+    osc = oscillator(centre_hz, fs, 0, n)
     y = v[:nb * d] * osc[:nb * d]
     sums = _block_sums(y.reshape(nb, d))
     if nb * d < n:            # the short last block stands at its own centre, one block's phase ahead

@@ -161,7 +161,7 @@ class BranchOutputs:
         return np.abs(self.z)
 
 
-def symbol_matrix(x: np.ndarray, x_start: int, grid: SymbolGrid) -> tuple[np.ndarray, np.ndarray]:
+def symbol_rows(x: np.ndarray, x_start: int, grid: SymbolGrid) -> np.ndarray:
     """Gather the samples of every symbol into a matrix.
 
     Parameters
@@ -175,18 +175,10 @@ def symbol_matrix(x: np.ndarray, x_start: int, grid: SymbolGrid) -> tuple[np.nda
 
     Returns
     -------
-    rows : numpy.ndarray
-        shape (n_symbols, L), the samples of each symbol.
-    n : numpy.ndarray
-        shape (n_symbols, L), the capture sample index of each entry.
+    numpy.ndarray
+        shape (n_symbols, L): row ``k`` holds the ``L`` samples of symbol
+        ``k`` from its first whole sample ``grid.first_samples[k]``.
     """
-    first = grid.first_samples
-    n = first[:, None] + np.arange(grid.window)[None, :]
-    return _windows(x, first - x_start, grid.window), n
-
-
-def symbol_rows(x: np.ndarray, x_start: int, grid: SymbolGrid) -> np.ndarray:
-    """The ``rows`` of :func:`symbol_matrix` alone (no index matrix)."""
     return _windows(x, grid.first_samples - x_start, grid.window)
 
 

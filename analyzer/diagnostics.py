@@ -1129,7 +1129,7 @@ def measured_pulse(rows: np.ndarray, sample_index: np.ndarray, sent: np.ndarray,
     sample_index : numpy.ndarray
         (n, L) capture sample index of every entry of ``rows``, or (n,) the
         index of each row's first sample when every row holds ``L`` consecutive
-        samples (as :func:`analyzer.branches.symbol_matrix` gathers them); the
+        samples (as :func:`analyzer.branches.symbol_rows` gathers them); the
         short form skips the check that the rows are consecutive.
     sent : numpy.ndarray
         Tone sent per symbol (known or decided).

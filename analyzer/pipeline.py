@@ -297,10 +297,6 @@ def _ber_count(ec: prbs.ErrorCount, low_is_one: bool) -> BerCount:
                     tone_for_one="low" if low_is_one else "high")
 
 
-def _rows(x: np.ndarray, x_start: int, grid: branches.SymbolGrid) -> np.ndarray:
-    return branches.symbol_rows(x, x_start, grid)
-
-
 # --------------------------------------------------------------------------- one burst
 def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: float,
                             noise_var: float, min_symbols: int = MIN_SYMBOLS):
@@ -441,7 +437,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         # them (decision-directed) while the tones still move, then look again
         for _ in range(2):
             before = tones
-            tones = acquire.refine_tones(_rows(x, x_start, grid), dec, fs, tones)
+            tones = acquire.refine_tones(branches.symbol_rows(x, x_start, grid), dec, fs, tones)
             grid = retime(grid, tones, dec)
             out = _correlate_again(x, x_start, grid, tones, fs, out)
             dec = decide.square_law(out.z)
@@ -457,7 +453,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         if continuous:
             grid = acquire.transition_timing(x, x_start, grid, tones, fs, known)
         before = tones
-        tones = acquire.refine_tones(_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
+        tones = acquire.refine_tones(branches.symbol_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
         if not continuous and max(abs(a - b) for a, b in zip(tones, before)) >= \
                 SETTLED_TONE_SHIFT * fs / grid.samples_per_symbol:
             grid = retime(grid, tones, known)     # the timing was found with tones that were well off
@@ -503,7 +499,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     loss = None
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
-    rows = _rows(x, x_start, grid)
+    rows = branches.symbol_rows(x, x_start, grid)
     p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
     diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows)
     return BurstResult(

@@ -152,7 +152,8 @@ def test_measured_pulse_loss(ramp):
     grid = branches.symbol_grid(tr["start_sample"], sps, tr["n_symbols"])     # exact timing (hand-built)
     x = res.samples
     out = branches.correlate(x, 0, grid, p.tones_hz, FS)
-    rows, idx = branches.symbol_matrix(x, 0, grid)
+    rows = branches.symbol_rows(x, 0, grid)
+    idx = grid.first_samples[:, None] + np.arange(grid.window)[None, :]      # the (n, L) index form
     sent = res.bits
     nv = np.full(2, res.truth["noise_sigma"] ** 2)
     pulse = diagnostics.measured_pulse(rows, idx, sent, p.tones_hz, FS, nv)
