@@ -140,11 +140,6 @@ def _quantum_sums(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             np.concatenate(energy) if energy else np.empty(0))
 
 
-def periodic_hann(n: int) -> np.ndarray:
-    """``0.5 - 0.5 cos(2 pi k / n)``, ``k = 0 .. n-1`` (its DFT has three nonzero bins)."""
-    return (0.5 - 0.5 * np.cos(2 * np.pi * np.arange(n) / n)).astype(np.float32)
-
-
 class _Periodograms:
     """Hann-windowed frames of one length: spectrogram cells, averaged spectrum, raw DC bins."""
 
@@ -153,7 +148,10 @@ class _Periodograms:
 
     def __init__(self, nfft: int, cells: int | None, stride: int):
         self.nfft, self.cells, self.stride = nfft, cells, stride
-        self.w = periodic_hann(nfft)
+        from scipy.signal import windows
+
+        # periodic (DFT-even) Hann, 0.5 - 0.5 cos(2 pi k / n): its DFT has three nonzero bins
+        self.w = windows.hann(nfft, sym=False).astype(np.float32)
         self.w2 = 3.0 * nfft / 8.0                      # sum of the periodic Hann window squared
         self.W = np.array([nfft / 2.0, -nfft / 4.0, -nfft / 4.0])
         self.rows, self.raw = [], []
