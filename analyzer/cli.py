@@ -105,8 +105,9 @@ def analyze(
     strict: bool = typer.Option(False, "--strict", help="Treat a SigMF checksum mismatch as an error, "
                                                        "not a warning."),
     workers: Optional[int] = typer.Option(None, "--workers", min=1,
-                                          help="Processes that analyse bursts side by side (default: every "
-                                               "core; 1 = one process). Results are the same either way."),
+                                          help="Processes that share the reading of a long capture and the "
+                                               "burst analysis (default: every core; 1 = one process). Results "
+                                               "are the same either way."),
 ):
     """Analyse one capture and write JSON and HTML reports (and PDF / SigMF annotations when asked).
 

@@ -810,9 +810,9 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     ``prior_warnings`` (from opening the capture) are put first in the result's warnings.
     ``block`` is the number of samples read at a time in the passes over the
     capture (default :data:`BLOCK_SAMPLES`); it changes memory use, not results.
-    ``workers`` is the number of processes for the burst regions (default
-    :func:`analyzer.workers.default_workers`; 1 keeps everything in this process); it changes
-    speed, not results.
+    ``workers`` is the number of processes that share the pass over the capture
+    and the burst regions (default :func:`analyzer.workers.default_workers`; 1
+    keeps everything in this process); it changes speed, not results.
     """
     _check_hints(cap, opts)
     keep_freed_memory()
@@ -1011,8 +1011,8 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
         :data:`BLOCK_SAMPLES`, rounded up to whole frames); results do not
         depend on it.
     workers : int, optional
-        Processes that analyse the burst regions side by side (default: the
-        cores available; 1 = all in this process).  Results do not depend on
+        Processes that share the pass over the capture and the burst regions
+        (default: the cores available; 1 = all in this process).  Results do not depend on
         it.  Workers are forked, so this applies where the platform can fork
         and no other thread is running; elsewhere the analysis stays in this
         process.
