@@ -166,6 +166,14 @@ def _flipped_period(name: str) -> np.ndarray:
     return seq
 
 
+def _aligned(seq: np.ndarray, a: int, lo: int, hi: int) -> np.ndarray:
+    """``seq[(k + a) mod period]`` for ``lo <= k < hi`` (``lo`` may be negative)."""
+    idx = np.arange(lo, hi, dtype=np.int64)
+    idx += int(a)
+    idx %= seq.size
+    return seq[idx]
+
+
 def _window_states(bits: np.ndarray, order: int) -> np.ndarray:
     """Integer value of every ``order``-bit window, first bit most significant.
 
@@ -397,8 +405,7 @@ class Reference:
     def expected(self, alignment: int, lo: int, hi: int) -> np.ndarray:
         """Reference bits for received bits ``lo <= k < hi`` under ``alignment`` (see :class:`ErrorCount`);
         ``lo`` may be negative (bits before the first received one)."""
-        seq = self.sequence()
-        return seq[(np.arange(lo, hi, dtype=np.int64) + int(alignment)) % seq.size]
+        return _aligned(self.sequence(), alignment, lo, hi)
 
     def __eq__(self, other):
         if not isinstance(other, Reference):
@@ -540,10 +547,7 @@ class _Aligner:
             self.pattern_fft = np.fft.rfft(pm)
 
     def expected(self, a: int, lo: int, hi: int) -> np.ndarray:
-        idx = np.arange(lo, hi, dtype=np.int64)
-        idx += a
-        idx %= self.period
-        return self.seq[idx]
+        return _aligned(self.seq, a, lo, hi)
 
     def error_rate(self, a: int, lo: int, hi: int) -> float:
         return float(np.count_nonzero(self.bits[lo:hi] != self.expected(a, lo, hi))) / (hi - lo)
