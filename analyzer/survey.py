@@ -220,18 +220,14 @@ class _Trace:
     def __init__(self, spec: TraceSpec, sample_rate_hz: float, n_samples: int, shared: bool = False):
         self.spec, self.fs = spec, sample_rate_hz
         n = max(int(n_samples), 0) // spec.frame
-        layout = (("power", np.float64), ("noise", np.float64), ("dc_bin", np.complex128), ("energy", np.float64))
-        if shared and n:
-            import mmap
+        dtypes = (np.float64, np.float64, np.complex128, np.float64)
+        if shared:
+            from .workers import shared_zeros
 
-            self._map = mmap.mmap(-1, n * sum(np.dtype(t).itemsize for _, t in layout))
-            offset = 0
-            for name, t in layout:
-                setattr(self, name, np.frombuffer(self._map, dtype=t, count=n, offset=offset))
-                offset += n * np.dtype(t).itemsize
+            arrays = shared_zeros(n, dtypes)
         else:
-            for name, t in layout:
-                setattr(self, name, np.zeros(n, dtype=t))
+            arrays = [np.zeros(n, dtype=t) for t in dtypes]
+        self.power, self.noise, self.dc_bin, self.energy = arrays
 
     def add(self, x: np.ndarray, pos: int) -> acquire.TraceFrames:
         s = self.spec

@@ -13,10 +13,12 @@ from __future__ import annotations
 import warnings
 from typing import Callable, Iterable, Iterator
 
+import numpy as np
+
 from .errors import CaptureWarning, warn
 from .heap import release_freed_memory
 
-__all__ = ["default_workers", "can_fork", "fork_workers", "fork_map"]
+__all__ = ["default_workers", "can_fork", "fork_workers", "fork_map", "shared_zeros"]
 
 #: ``(function, context)``, set in the parent just before the workers are forked; they inherit it.
 _FORKED: tuple | None = None
@@ -86,3 +88,23 @@ def fork_map(fn: Callable, ctx, tasks: Iterable[tuple], workers: int) -> Iterato
                 yield out
     finally:
         _FORKED = None
+
+
+def shared_zeros(n: int, dtypes) -> list:
+    """Arrays of ``n`` zeros, one per dtype, in one anonymous shared mapping.
+
+    Workers forked afterwards write into the same memory the parent reads, so
+    results written there need not be sent back.  The arrays keep the mapping
+    alive; it is released with the last of them.
+    """
+    import mmap
+
+    sizes = [int(n) * np.dtype(t).itemsize for t in dtypes]
+    if sum(sizes) == 0:
+        return [np.zeros(int(n), dtype=t) for t in dtypes]
+    buf = mmap.mmap(-1, sum(sizes))            # anonymous, shared with children; zero-filled
+    out, offset = [], 0
+    for t, size in zip(dtypes, sizes):
+        out.append(np.frombuffer(buf, dtype=t, count=int(n), offset=offset))
+        offset += size
+    return out
