@@ -41,11 +41,12 @@ import functools
 from dataclasses import dataclass
 
 import numpy as np
-from .branches import EnergyTrace, SymbolGrid, oscillator, sliding_sums, symbol_grid, window_energy
+from .branches import (EnergyTrace, SymbolGrid, energy_trace, oscillator, sliding_sums, symbol_grid,
+                       window_energy)
 
 __all__ = [
     "PowerTrace", "TraceFrames", "BurstSpan", "band_power_frames", "find_bursts",
-    "symbol_energy_trace", "estimate_symbol_timing", "trim_to_burst", "refine_tones",
+    "estimate_symbol_timing", "trim_to_burst", "refine_tones",
     "segment_symbols",
 ]
 
@@ -626,16 +627,6 @@ def refine_tones(rows: np.ndarray, decisions: np.ndarray, sample_rate_hz: float,
 
 
 # --------------------------------------------------------------------------- timing
-def symbol_energy_trace(x: np.ndarray, sample_rate_hz: float, tones_hz, window: int) -> np.ndarray:
-    """``e[n] = |z0(n)|^2 + |z1(n)|^2`` for a one-symbol window starting at each sample n.
-
-    ``len(e) = len(x) - window + 1``; see :func:`analyzer.branches.window_energy`.
-    """
-    if len(x) < window:
-        return np.zeros(0)
-    return window_energy(x, 0, 0, len(x) - window + 1, window, tones_hz, sample_rate_hz)
-
-
 @dataclass(frozen=True)
 class TimingEstimate:
     """Symbol rate and timing of a burst.
@@ -829,7 +820,7 @@ def estimate_symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, t
     if energy is not None and energy.window == window:
         e = energy.between(x_start, x_start + max(len(x) - window + 1, 0))
     if e is None:
-        e = symbol_energy_trace(x, sample_rate_hz, tones_hz, window)
+        e = energy_trace(x, x_start, window, tones_hz, sample_rate_hz).values
     e = e - e.mean()
     n_e = len(e)
     lo = rate_hint_hz * (1 - search_ppm * 1e-6)
