@@ -245,14 +245,20 @@ def remove_dc(power: np.ndarray, dc_bin: np.ndarray, dc: complex, sample_rate_hz
 
     A constant ``d`` adds ``d * frame`` to a rectangular frame's DFT at 0 Hz
     and nothing elsewhere, so only frames whose band holds 0 Hz change, by
-    ``(|X0 - d frame|^2 - |X0|^2) / frame^2``.
+    ``(|X0 - D|^2 - |X0|^2) / frame^2 = (|D|^2 - 2 Re(X0 conj(D))) / frame^2``
+    with ``D = d frame`` (the second form has no difference of large squares,
+    and needs no complex temporaries on a trace of millions of frames).
     """
     inband, _ = _band_masks(sample_rate_hz, band_hz, frame, ())
     if dc == 0 or not inband[0] or len(power) == 0:
         return power
     x0 = np.asarray(dc_bin)
-    shifted = x0 - complex(dc) * frame
-    return power + ((shifted.real ** 2 + shifted.imag ** 2) - (x0.real ** 2 + x0.imag ** 2)) / frame**2
+    d = complex(dc) * frame
+    out = np.multiply(x0.real, -2.0 * d.real / frame**2, dtype=np.float64)
+    out += x0.imag * (-2.0 * d.imag / frame**2)
+    out += abs(d) ** 2 / frame**2
+    out += power
+    return out
 
 
 def band_bins(sample_rate_hz: float, band_hz: tuple[float, float], frame: int) -> int:

@@ -240,8 +240,8 @@ class _Trace:
 
     def result(self, dc: complex) -> acquire.PowerTrace:
         s = self.spec
-        power = acquire.remove_dc(np.array(self.power), np.array(self.dc_bin), dc, self.fs, s.band, s.frame)
-        return acquire.PowerTrace(power, np.array(self.noise), s.frame,
+        power = acquire.remove_dc(self.power, self.dc_bin, dc, self.fs, s.band, s.frame)
+        return acquire.PowerTrace(power, self.noise, s.frame,
                                   acquire.band_bins(self.fs, s.band, s.frame), s.band)
 
 

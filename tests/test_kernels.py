@@ -196,6 +196,26 @@ def test_trace_frames_match_a_double_precision_dft():
         np.testing.assert_array_equal(a[5:], b)
 
 
+def test_dc_correction_of_the_trace_matches_the_dft_without_the_offset():
+    # reference: numpy.fft in double precision on each frame of x - d (the DFT is linear: common practice)
+    rng = np.random.default_rng(13)
+    fs, frame, n_frames, d = 1e6, 64, 2000, 0.1 - 0.2j
+    x = (0.3 * (rng.standard_normal(frame * n_frames) + 1j * rng.standard_normal(frame * n_frames)) + d)
+    band = (-1e5, 1e5)
+    tf = acquire.band_power_frames(x.astype(np.complex64), fs, band, frame)
+    got = acquire.remove_dc(tf.power, tf.dc_bin, d, fs, band, frame)
+    spec = np.abs(np.fft.fft((x - d).reshape(n_frames, frame), axis=1)) ** 2
+    f = np.fft.fftfreq(frame, 1 / fs)
+    inband = (f >= band[0]) & (f <= band[1])
+    ref = spec[:, inband].sum(axis=1) / frame**2
+    # float32 FFT of samples of magnitude about 0.5: absolute error of a few 1e-7 of the frame power
+    np.testing.assert_allclose(got, ref, rtol=1e-5, atol=2e-6 * np.mean(ref))
+    # a band that leaves out 0 Hz is not changed
+    above = (1e5, 3e5)
+    tf2 = acquire.band_power_frames(x.astype(np.complex64), fs, above, frame)
+    np.testing.assert_array_equal(acquire.remove_dc(tf2.power, tf2.dc_bin, d, fs, above, frame), tf2.power)
+
+
 def test_doubling_means_equal_numpy_convolve():
     # reference: numpy.convolve with a boxcar, mode "same" (the moving average it replaces)
     rng = np.random.default_rng(13)
