@@ -1,7 +1,8 @@
 """PDF report: checked with pypdf (an independent PDF reader) against the JSON report.
 
-References: ISO 32000 (PDF files begin with the "%PDF-" header); pypdf for text
-and document information.
+References: ISO 32000 (PDF files begin with the "%PDF-" header); ISO 216 (A4 is
+210 mm x 297 mm, 595.3 pt x 841.9 pt); pypdf for text, page sizes and document
+information.
 """
 
 from __future__ import annotations
@@ -32,7 +33,10 @@ def test_pdf_holds_verdict_and_same_numbers(tmp_path, make_capture, run_cli):
     raw = pdf.read_bytes()
     assert raw[:5] == b"%PDF-"                       # ISO 32000 file header
     reader = pypdf.PdfReader(pdf)
-    assert len(reader.pages) >= 4                    # summary, spectrum, envelopes, BER curve
+    assert len(reader.pages) >= 4          # summary, sheet(s) of figures, diagnostics, the burst's figures
+    for page in reader.pages:              # ISO 216 A4 (matplotlib's 8.27 x 11.69 in is within 0.3 pt)
+        assert abs(float(page.mediabox.width) - 595.3) < 0.5 and abs(float(page.mediabox.height) - 841.9) < 0.5
+    assert "frequency (kHz) from centre" in reader.pages[1].extract_text()     # the spectrum, on sheet 2
     assert reader.metadata["/Creator"] == "tonepair"
     assert "tonepair report" in reader.metadata["/Title"]
     text = reader.pages[0].extract_text()
@@ -50,3 +54,39 @@ def test_pdf_only_when_asked(tmp_path, make_capture, run_cli):
     res = run_cli("analyze", cap, "--tones", "-2500,2500", "--baud", "5000", "--out", tmp_path / "o", "--quiet")
     assert res.exit_code == 0, res.output
     assert sorted(p.suffix for p in (tmp_path / "o").iterdir()) == [".html", ".json"]
+
+
+def _figure_pdf(sizes_in, labels) -> bytes:
+    import io
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+    from matplotlib.backends.backend_pdf import PdfPages
+
+    buf = io.BytesIO()
+    with PdfPages(buf) as pdf:
+        for size, label in zip(sizes_in, labels):
+            fig = plt.figure(figsize=size)
+            fig.text(0.5, 0.5, label)
+            pdf.savefig(fig)
+            plt.close(fig)
+    return buf.getvalue()
+
+
+def test_figure_pages_are_stacked_on_a4_sheets_in_order():
+    import io
+
+    from analyzer.report.pdf import A4, on_a4_sheets
+
+    # a full A4 page, three 6 x 3 in figures (216 pt high: three fit on one sheet), one 10 in wide
+    raw = _figure_pdf([A4, (6, 3), (6, 3), (6, 3), (10, 4)], ["page-one", "fig-a", "fig-b", "fig-c", "fig-wide"])
+    reader = pypdf.PdfReader(io.BytesIO(on_a4_sheets(raw)))
+    texts = [p.extract_text() for p in reader.pages]
+    assert len(texts) == 3
+    assert "page-one" in texts[0]
+    assert texts[1].index("fig-a") < texts[1].index("fig-b") < texts[1].index("fig-c")
+    assert "fig-wide" in texts[2]    # sheet 2 has 80 pt left; 720 x 288 pt scaled to the 523 pt width needs 209
+    for page in reader.pages:                   # ISO 216 A4
+        assert abs(float(page.mediabox.width) - 595.3) < 0.5 and abs(float(page.mediabox.height) - 841.9) < 0.5

@@ -1,4 +1,4 @@
-"""PDF reports (matplotlib's PdfPages): a summary page, then the figures.
+"""PDF reports (matplotlib's PdfPages, laid out on A4 with pypdf): a summary page, then the figures.
 
 Every number on the summary page comes from the JSON-ready report dict, so
 the PDF, HTML and JSON agree.  Text is embedded with TrueType fonts so it can
@@ -178,6 +178,11 @@ def diagnostics_page(bd: dict):
     return fig
 
 
+#: Margin and gap between figures on an A4 sheet, points.
+SHEET_MARGIN_PT = 36.0
+FIGURE_GAP_PT = 14.0
+
+
 def _pdf_bytes(pages, title: str) -> bytes:
     buf = io.BytesIO()
     with matplotlib.rc_context({"pdf.fonttype": 42}):
@@ -185,7 +190,48 @@ def _pdf_bytes(pages, title: str) -> bytes:
             for fig in pages:
                 pdf.savefig(fig, bbox_inches=None if fig.get_size_inches()[1] > 10 else "tight")
                 plt.close(fig)
-    return buf.getvalue()
+    return on_a4_sheets(buf.getvalue())
+
+
+def on_a4_sheets(raw: bytes) -> bytes:
+    """Every page of the PDF ``raw`` on A4: full pages as they are, figure-sized pages
+    stacked from the top of A4 sheets in order, centred, scaled down only to fit the width.
+
+    The figures stay vector graphics (each page's content is placed by a transformation,
+    with :mod:`pypdf`), so a report prints on sheets of one size.
+    """
+    from pypdf import PdfReader, PdfWriter, Transformation
+
+    reader = PdfReader(io.BytesIO(raw))
+    writer = PdfWriter()
+    width, height = A4[0] * 72.0, A4[1] * 72.0
+    usable_w = width - 2 * SHEET_MARGIN_PT
+    sheet, y = None, 0.0                      # the sheet being filled and the height left on it
+
+    for page in reader.pages:
+        box = page.mediabox
+        w, h = float(box.width), float(box.height)
+        if w >= 0.95 * width and h >= 0.95 * height:          # a full page: as it is
+            writer.add_page(page)
+            sheet = None
+            continue
+        s = min(1.0, usable_w / w, (height - 2 * SHEET_MARGIN_PT) / h)
+        if sheet is None or s * h > y - SHEET_MARGIN_PT:
+            sheet = writer.add_blank_page(width, height)
+            y = height - SHEET_MARGIN_PT
+        y -= s * h
+        x = 0.5 * (width - s * w)
+        sheet.merge_transformed_page(page, Transformation().translate(-float(box.left), -float(box.bottom))
+                                     .scale(s, s).translate(x, y))
+        y -= FIGURE_GAP_PT
+    for page in writer.pages:
+        page.compress_content_streams()       # the merged streams come out uncompressed
+    writer.compress_identical_objects()       # one copy of what the figures share (fonts)
+    if reader.metadata:
+        writer.add_metadata({k: v for k, v in reader.metadata.items()})
+    out = io.BytesIO()
+    writer.write(out)
+    return out.getvalue()
 
 
 def render_pdf(result, report: dict) -> bytes:
