@@ -45,7 +45,7 @@ from .branches import (EnergyTrace, SymbolGrid, energy_trace, oscillator, slidin
                        window_energy)
 
 __all__ = [
-    "PowerTrace", "TraceFrames", "BurstSpan", "band_power_frames", "find_bursts",
+    "PowerTrace", "TraceFrames", "BurstSpan", "band_power_frames", "find_bursts", "quiet_floor",
     "estimate_symbol_timing", "trim_to_burst", "refine_tones",
     "segment_symbols",
 ]
@@ -366,6 +366,31 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
         start, stop = a * trace.frame, e * trace.frame
         spans.append(BurstSpan(int(start), int(stop), float(np.mean(p[a:e])), float(np.mean(track[a:e]))))
     return spans, float(floor)
+
+
+#: Fewest frames between bursts from which :func:`quiet_floor` states the floor.
+QUIET_MIN_FRAMES = 32
+
+
+def quiet_floor(trace: PowerTrace, spans, margin_frames: int) -> float | None:
+    """The noise floor from the stretches between bursts: the mean in-band power of the frames
+    outside every span (and ``margin_frames`` either side of it).
+
+    A frame of noise alone has expected in-band power equal to the floor, so
+    the mean over the quiet frames is unbiased; the out-of-band estimate is
+    not, inside bursts: the skirts of the keyed tones (rectangular symbols
+    fall off as 1/f^2) and the frame's own spectral leakage lift the
+    out-of-band bins while a burst is on.  None when fewer than
+    :data:`QUIET_MIN_FRAMES` quiet frames remain (bursts fill the capture).
+    """
+    p = np.asarray(trace.power, float)
+    quiet = np.ones(p.size, bool)
+    m = max(int(margin_frames), 0)
+    for s in spans:
+        quiet[max(0, s.start // trace.frame - m):max(0, -(-s.stop // trace.frame) + m)] = False
+    if np.count_nonzero(quiet) < QUIET_MIN_FRAMES:
+        return None
+    return float(np.mean(p[quiet]))
 
 
 #: The floor track averages the noise estimate over blocks of this many
