@@ -329,13 +329,15 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
         Coarse spans; neighbouring bursts closer than the smoothing may be
         merged -- the symbol-level segmentation splits them again.
     floor : float
-        The noise floor estimate (mean in-band noise power per frame).
+        The noise floor (mean in-band noise power per frame): from the frames
+        between the spans found (:func:`quiet_floor`) where there are enough
+        of them, else the median of the floor track.
     """
     p = np.asarray(trace.power, dtype=float)
     if p.size == 0:
         return [], 0.0
     b = max(trace.bins, 1)
-    k_want = int(np.ceil(1.0 / (max_rel_spread**2 * b)))
+    k_want = smoothing_frames(b, max_rel_spread)
     # The 20th percentile of noise-only frames sits ~0.84 sd below their mean;
     # it overestimates the floor when bursts fill most of the capture, so the
     # out-of-band estimate (white noise assumed) caps it where available.
@@ -359,13 +361,20 @@ def find_bursts(trace: PowerTrace, min_len_samples: float, n_sigma: float = 5.0,
             if e - a >= max(kk, min_frames):
                 above[a:e] = True
     spans: list[BurstSpan] = []
-    if not above.any():
-        return spans, float(floor)
     edges = np.flatnonzero(np.diff(np.concatenate(([0], above.astype(np.int8), [0]))))
     for a, e in edges.reshape(-1, 2):
         start, stop = a * trace.frame, e * trace.frame
         spans.append(BurstSpan(int(start), int(stop), float(np.mean(p[a:e])), float(np.mean(track[a:e]))))
-    return spans, float(floor)
+    # the frames between the spans, clear of the longest moving average's reach, read the floor
+    # without the lift strong bursts give the out-of-band bins
+    quiet = quiet_floor(trace, spans, k_want + 8)
+    return spans, float(floor if quiet is None else quiet)
+
+
+def smoothing_frames(bins: int, max_rel_spread: float = 0.08) -> int:
+    """Frames in the longest moving average of :func:`find_bursts`: enough that a trace of
+    ``bins`` bins per frame has relative noise spread ``max_rel_spread`` (1/sqrt(bins k))."""
+    return int(np.ceil(1.0 / (max_rel_spread**2 * max(int(bins), 1))))
 
 
 #: Fewest frames between bursts from which :func:`quiet_floor` states the floor.

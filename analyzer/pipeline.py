@@ -898,13 +898,6 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         # the noise floor frame by frame, from the out-of-band noise (NaN without it)
         oob_track = acquire.floor_track(trace, float("nan"))
         spans, floor = acquire.find_bursts(trace, MIN_SYMBOLS * sps_min, track=oob_track)
-        # close spans are joined: a weak burst can dip under the threshold for a
-        # while, and the symbol-level segmentation splits real gaps precisely
-        # (gaps up to twice the longest moving average of the burst search)
-        k_long = int(np.ceil(1.0 / (0.08 ** 2 * max(bins, 1))))
-        # the floor stated is that of the stretches between bursts where there are enough of them
-        quiet = acquire.quiet_floor(trace, spans, k_long + 8)
-        floor = quiet if quiet is not None else floor
         noise_var = floor * frame / max(bins, 1)       # complex noise variance per sample
         full_scale = 1.0
         floor_dbfs = float(10 * np.log10(noise_var)) if noise_var > 0 else float("-inf")
@@ -920,6 +913,10 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
                  f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale, {rel:.1f} dB against the "
                  f"rest of the signal); removed before analysis")
         margin = 8 * frame + 4 * int(np.ceil(sps_min if rs is None else fs / rs))
+        # close spans are joined: a weak burst can dip under the threshold for a
+        # while, and the symbol-level segmentation splits real gaps precisely
+        # (gaps up to twice the longest moving average of the burst search)
+        k_long = acquire.smoothing_frames(bins)
         regions = _merge_spans(spans, gap=int(2 * k_long * frame), margin=margin, n_samples=cap.n_samples)
         regions = [piece for a, b in regions for piece in _split_region(a, b, power, frame, MAX_REGION_SAMPLES)]
         burst_cb = stage_progress("bursts")
