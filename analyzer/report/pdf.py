@@ -228,7 +228,7 @@ def on_a4_sheets(raw: bytes) -> bytes:
         page.compress_content_streams()       # the merged streams come out uncompressed
     writer.compress_identical_objects()       # one copy of what the figures share (fonts)
     if reader.metadata:
-        writer.add_metadata({k: v for k, v in reader.metadata.items()})
+        writer.add_metadata(reader.metadata)
     out = io.BytesIO()
     writer.write(out)
     return out.getvalue()
