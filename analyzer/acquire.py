@@ -942,7 +942,7 @@ def line_fit(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
 
 def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
                   blocks: int = 4, span: float | None = None, step: float | None = None,
-                  energy: EnergyTrace | None = None) -> SymbolGrid:
+                  energy: EnergyTrace | None = None, metric: str = "energy") -> SymbolGrid:
     """Refine the symbol grid by maximising the correlator energy block by block.
 
     The spectral-line estimate of :func:`estimate_symbol_timing` leaves a
@@ -958,7 +958,11 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     noncoherent receiver's own metric (the low-SNR form of its likelihood).
 
     ``energy``, when given (made with ``grid.window`` and these tones), supplies
-    the window energies instead of a new correlation.
+    the window energies instead of a new correlation (``metric="energy"`` only).
+    ``metric="contrast"`` maximises ``sum ||z1|^2 - |z0|^2|`` instead (see
+    :func:`branches.window_energy`): the sharper metric for continuous-phase
+    keying, where a window that straddles a boundary still collects nearly the
+    whole energy but leaks part of it into the other branch.
 
     Returns
     -------
@@ -984,9 +988,11 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     if lo < x_start or hi - 1 + grid.window > x_start + len(x):
         return grid
     # the energy of a window at every start sample, once; each shifted grid picks its symbols
-    e_all = energy.between(lo, hi) if energy is not None and energy.window == grid.window else None
+    e_all = None
+    if metric == "energy" and energy is not None and energy.window == grid.window:
+        e_all = energy.between(lo, hi)
     if e_all is None:
-        e_all = window_energy(x, x_start, lo, hi, grid.window, tones_hz, sample_rate_hz)
+        e_all = window_energy(x, x_start, lo, hi, grid.window, tones_hz, sample_rate_hz, metric)
     block_energy = np.add.reduceat(e_all[firsts - lo], edges[:-1], axis=1)
     best = np.empty(blocks)
     for b in range(blocks):
@@ -1334,93 +1340,3 @@ def symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz, 
     if alt is not None and alt.line_snr > tm.line_snr:
         return alt
     return tm
-
-
-def transition_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
-                      tone_index: np.ndarray, blocks: int = 8, iterations: int = 5) -> SymbolGrid:
-    """Iterate :func:`_transition_timing_once` until the start moves by < 0.02 sample.
-
-    Each pass searches a window of half a symbol either side of the expected
-    boundaries, which pulls its answer towards the grid it starts from; a few
-    passes remove that pull.
-    """
-    g = grid
-    for _ in range(iterations):
-        new = _transition_timing_once(x, x_start, g, tones_hz, sample_rate_hz, tone_index, blocks)
-        moved = abs(new.first_start - g.first_start) + abs(new.samples_per_symbol - g.samples_per_symbol) * g.n_symbols
-        g = new
-        if moved < 0.02:
-            break
-    return g
-
-
-def _transition_timing_once(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
-                            tone_index: np.ndarray, blocks: int = 8) -> SymbolGrid:
-    """Refine the symbol grid from the instants where the sent tone changes.
-
-    ``d[n] = |S1(n)|^2 - |S0(n)|^2`` over a window of ``m = sps/2`` samples
-    steps from one sign to the other at every change of tone.  Around each
-    expected boundary (from ``tone_index``: decided or known tones) the step is
-    located by the least-squares change point of ``d`` (the minimum of its
-    prefix sum after orienting the step upwards).  The offsets of all
-    boundaries from the grid are combined in ``blocks`` medians and a straight
-    line through them corrects the start and the period.  Unlike the energy
-    of a whole-symbol window, this does not flatten for continuous-phase
-    keying, where a slightly misplaced window still adds the next symbol's
-    tone almost coherently.
-
-    Returns
-    -------
-    SymbolGrid
-        The refined grid, or ``grid`` when there are too few tone changes or
-        the samples do not cover them.
-
-    References
-    ----------
-    Page (1954) and Hinkley, "Inference about the change-point in a sequence
-    of random variables," Biometrika 57, 1970 (from memory).
-    """
-    b = np.asarray(tone_index).astype(np.int64)
-    n_sym = grid.n_symbols
-    sps = grid.samples_per_symbol
-    m = int(max(2, round(sps / 2)))
-    w = int(max(2, round(sps / 2)))
-    k = np.flatnonzero(b[1:] != b[:-1]) + 1
-    if k.size < 8:
-        return grid
-    starts = grid.starts[k]
-    n0 = np.round(starts - m / 2).astype(np.int64) - w          # capture index of the first d sample
-    lo = int(n0.min()) - x_start
-    hi = int(n0.max()) + 2 * w + m + 1 - x_start
-    if lo < 0 or hi > len(x):
-        inside = (n0 - x_start >= 0) & (n0 + 2 * w + m + 1 - x_start <= len(x))
-        k, starts, n0 = k[inside], starts[inside], n0[inside]
-        if k.size < 8:
-            return grid
-        lo = int(n0.min()) - x_start
-        hi = int(n0.max()) + 2 * w + m + 1 - x_start
-    seg = x[lo:hi]
-    d = _tone_difference(seg, sample_rate_hz, tones_hz, m)
-    idx = (n0 - x_start - lo)[:, None] + np.arange(2 * w + 1)[None, :]
-    v = d[idx] * np.where(b[k] == 1, 1.0, -1.0)[:, None]         # step upwards at the boundary
-    v = v - np.median(v, axis=1, keepdims=True)
-    prefix = np.cumsum(v, axis=1)
-    j = np.argmin(prefix, axis=1) + 1                            # first sample after the step
-    # window [n, n+m) is balanced across the boundary when n + m/2 = ceil(t_k);
-    # the grid's convention puts t_k half a sample before that
-    est = n0 + j + m / 2 - 0.5
-    off = est - starts
-    off = off[np.abs(off - np.median(off)) <= 0.5 * sps]
-    kk = k[np.abs(est - starts - np.median(est - starts)) <= 0.5 * sps]
-    if off.size < 8:
-        return grid
-    nb = int(max(1, min(blocks, off.size // 16)))
-    edges = np.linspace(0, off.size, nb + 1).astype(int)
-    med = np.array([np.median(off[a:c]) for a, c in zip(edges[:-1], edges[1:])])
-    pos = np.array([np.mean(kk[a:c]) for a, c in zip(edges[:-1], edges[1:])])
-    if nb >= 2:
-        slope, icpt = np.polyfit(pos, med, 1)
-    else:
-        slope, icpt = 0.0, float(med[0])
-    return symbol_grid(grid.first_start + icpt, sps + slope, n_sym)
-

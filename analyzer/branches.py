@@ -264,7 +264,7 @@ def _window_products(x: np.ndarray, local_first: np.ndarray, window: int, base: 
 
 
 def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: int, tones_hz,
-                  sample_rate_hz: float) -> np.ndarray:
+                  sample_rate_hz: float, metric: str = "energy") -> np.ndarray:
     """Total correlator energy ``|z0|^2 + |z1|^2`` of a window starting at every sample.
 
     Parameters
@@ -281,6 +281,14 @@ def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: in
         Template frequencies (Hz).
     sample_rate_hz : float
         Sample rate.
+    metric : {"energy", "contrast"}
+        ``"energy"``: ``|z0|^2 + |z1|^2``.  ``"contrast"``: ``||z1|^2 - |z0|^2|``,
+        the energy of the stronger branch less that of the weaker one -- with
+        square-law decisions, the sent branch's energy less the other's.  A
+        window that straddles a change of tone loses energy on the sent branch
+        *and* leaks it into the other, so the contrast falls off on both sides
+        of the symbol boundary for any keying; the total energy of a
+        continuous-phase burst falls off much more slowly.
     Returns
     -------
     numpy.ndarray
@@ -293,6 +301,13 @@ def window_energy(x: np.ndarray, x_start: int, first: int, stop: int, window: in
     if lo < 0 or hi + window - 1 > len(x):
         raise ValueError("windows run outside the samples given")
     s = sliding_sums(x[lo:hi + window - 1], tones_hz, sample_rate_hz, window)
+    if metric == "contrast":
+        p1 = s[1].real ** 2 + s[1].imag ** 2
+        p1 -= s[0].real ** 2
+        p1 -= s[0].imag ** 2
+        return np.abs(p1, out=p1) / window
+    if metric != "energy":
+        raise ValueError(f"unknown window metric {metric!r}")
     e = np.zeros(s.shape[1])
     for row in s:                 # |S|^2 summed over the tones, without a temporary per tone
         e += row.real ** 2

@@ -387,7 +387,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
 
     def retime(g, tn, bits):
         if continuous:
-            return acquire.transition_timing(x, x_start, g, tn, fs, bits)
+            return acquire.refine_timing(x, x_start, g, tn, fs, metric="contrast")
         return acquire.refine_timing(x, x_start, g, tn, fs, energy=energy_for(tn, g))
 
     def keying(z, bits) -> bool:
@@ -451,7 +451,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         # that truly carried them (wrong decisions would pull both inwards)
         known = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
         if continuous:
-            grid = acquire.transition_timing(x, x_start, grid, tones, fs, known)
+            grid = retime(grid, tones, known)
         before = tones
         tones = acquire.refine_tones(branches.symbol_rows(x, x_start, grid), known, fs, tones, weights=ec.counted)
         if not continuous and max(abs(a - b) for a, b in zip(tones, before)) >= \
