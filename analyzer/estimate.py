@@ -39,7 +39,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["GroupMoments", "BranchStats", "group_moments", "pool_moments", "branch_stats"]
+__all__ = ["GroupMoments", "BranchStats", "group_moments", "pool_moments", "branch_stats", "with_physical_ebn0"]
 
 Z95 = 1.959963984540054  # standard normal 97.5% quantile (scipy.stats.norm.ppf(0.975))
 
@@ -137,11 +137,17 @@ class BranchStats:
     ebn0_db : float
     ebn0_db_ci95 : (float, float)
     ebn0_tone_db : numpy.ndarray
-        (2,) Eb/N0 of each tone alone.
+        (2,) Eb/N0 of each tone alone (as the correlators see it).
     imbalance_db : float
         ``10 log10(g_1^2 / g_0^2)``: energy of the high tone over the low tone.
     data_aided : bool
         True when the tone sent was known from the reference pattern.
+    correlator_ebn0_db : float
+        Eb/N0 as the branch fit alone reads it (the energy the sent tone's
+        template collects over the noise on the other), when ``ebn0`` is the
+        physical figure of :func:`with_physical_ebn0`; the two agree for
+        rectangular keying timed to the symbol, and their difference is what
+        pulse shaping and intersymbol interference cost the correlators.
     """
 
     gain_sq: np.ndarray
@@ -153,6 +159,7 @@ class BranchStats:
     ebn0_tone_db: np.ndarray
     imbalance_db: float
     data_aided: bool
+    correlator_ebn0_db: float = float("nan")
 
     @property
     def signal_gain(self) -> np.ndarray:
@@ -228,6 +235,22 @@ def branch_stats(moments: GroupMoments, rho_abs: float, energy_scale: float,
         ebn0=float(ebn0) if ebn0 > 0 else float("nan"), ebn0_db=_db(ebn0),
         ebn0_db_ci95=(float(lo), float(hi)), ebn0_tone_db=tone, imbalance_db=imb,
         data_aided=bool(data_aided))
+
+
+def with_physical_ebn0(stats: BranchStats, physical) -> BranchStats:
+    """``stats`` with Eb/N0 and its interval taken from the physical estimate.
+
+    ``physical`` is a :class:`analyzer.signal_energy.PhysicalEbN0` (or None, which
+    leaves ``stats`` as it is): signal energy per bit over the noise density at
+    the tones, whatever the pulse.  The branch fit's own figure moves to
+    ``correlator_ebn0_db``.
+    """
+    if physical is None or not np.isfinite(physical.ebn0_db):
+        return stats
+    from dataclasses import replace
+
+    return replace(stats, ebn0=physical.ebn0, ebn0_db=physical.ebn0_db, ebn0_db_ci95=physical.ebn0_db_ci95,
+                   correlator_ebn0_db=stats.ebn0_db)
 
 
 def phase_continuity(z: np.ndarray, tone_index: np.ndarray) -> float:

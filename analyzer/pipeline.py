@@ -13,7 +13,7 @@ from typing import Callable
 
 import numpy as np
 
-from . import acquire, branches, decide, diagnostics, estimate, prbs, survey, theory
+from . import acquire, branches, decide, diagnostics, estimate, prbs, signal_energy, survey, theory
 from .capture import Capture, open_capture
 from .errors import CaptureWarning, InputError, warn
 from .heap import keep_freed_memory
@@ -106,6 +106,7 @@ class BurstResult:
     leakage: diagnostics.Leakage | None = None
     noise_correlation: diagnostics.NoiseCorrelation | None = None
     output_correlation: np.ndarray | None = None      # (2, 4, 4), see diagnostics.output_correlations
+    energy: signal_energy.EnergySums | None = None    # sums behind the physical Eb/N0 (pooled in the summary)
 
     @property
     def n_symbols(self) -> int:
@@ -484,7 +485,10 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     else:
         sent, mask, data_aided, ber = dec, None, False, None
     mom = estimate.group_moments(out.z, sent, mask)
-    stats = estimate.branch_stats(mom, abs(rho), scale, data_aided)
+    rows = branches.symbol_rows(x, x_start, grid)
+    energy = signal_energy.energy_sums(rows, sent, tones, fs, real=not np.any(x.imag), scale=scale, mask=mask)
+    stats = estimate.with_physical_ebn0(estimate.branch_stats(mom, abs(rho), scale, data_aided),
+                                        signal_energy.physical_ebn0(energy))
 
     if opts.decision == "likelihood" and np.all(stats.gain_sq > 0):
         s2 = float(np.mean(stats.noise_var_complex))
@@ -499,7 +503,6 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     loss = None
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
-    rows = branches.symbol_rows(x, x_start, grid)
     p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
     diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows)
     return BurstResult(
@@ -509,7 +512,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         ber_theory=ber_th, theory_model=model, loss=loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
         nominal_tones_hz=opts.tones_hz, phase_continuity=float(estimate.phase_continuity(out.z, sent)),
-        **diag)
+        energy=energy, **diag)
 
 
 def _correlate_again(x, x_start, grid, tones, fs, prev: branches.BranchOutputs | None) -> branches.BranchOutputs:
@@ -639,6 +642,8 @@ def _summary(bursts: list[BurstResult]) -> Summary:
     rho = float(np.mean([abs(b.rho) for b in bursts]))
     scale = float(np.mean([b.grid.samples_per_symbol / b.grid.window for b in bursts]))
     stats = estimate.branch_stats(mom, rho, scale, all(b.stats.data_aided for b in bursts))
+    stats = estimate.with_physical_ebn0(stats, signal_energy.physical_ebn0(
+        signal_energy.pool_energy([b.energy for b in bursts])))
     counted = [b.ber for b in bursts if b.ber is not None]
     ber = None
     if counted:
