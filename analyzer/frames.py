@@ -361,8 +361,10 @@ def looks_framed(count: FrameCount) -> bool:
 
 
 def pool_counts(counts: list[FrameCount]) -> FrameCount:
-    """All bursts' frames together (no per-symbol mask)."""
-    return _count(tuple(f for c in counts for f in c.frames))
+    """All bursts' frames together (``known``: the bursts' masks end to end)."""
+    masks = [c.known for c in counts]
+    known = np.concatenate(masks) if masks and all(m is not None for m in masks) else None
+    return _count(tuple(f for c in counts for f in c.frames), known)
 
 
 # --------------------------------------------------------------------------- theory
