@@ -42,7 +42,7 @@ from . import theory
 __all__ = ["FLAG_BITS", "GOOD_RESIDUE", "MIN_FRAME_BITS", "Frame", "FrameCount", "FrameTheory",
            "crc16_x25", "fcs_bytes", "nrzi_decode", "nrzi_encode", "flag_positions", "remove_stuffing",
            "insert_stuffing", "frame_bits", "encode_frames", "find_frames", "count_frames", "looks_framed", "pool_counts", "pooled_theory",
-           "known_symbols", "frame_error_rate", "frame_theory"]
+           "known_symbols", "FRAME_EDGE_SYMBOLS", "frame_error_rate", "frame_theory"]
 
 #: The flag 01111110 in the order its bits are sent.
 FLAG_BITS = np.array([0, 1, 1, 1, 1, 1, 1, 0], dtype=np.uint8)
@@ -390,28 +390,36 @@ class FrameTheory:
     loss: theory.LossEstimate | None
 
 
+#: Symbols besides its on-air bits that a frame needs right: its two flags (16 bits) and, as NRZI
+#: compares each symbol with the one before, the symbol before the opening flag.
+FRAME_EDGE_SYMBOLS = 17
+
+
 def frame_error_rate(tone_error_rate, on_air_bits) -> np.ndarray:
-    """Frame error rate ``1 - (1 - p)^(n + 1)`` of frames with ``n`` on-air bits between their flags.
+    """Frame error rate ``1 - (1 - p)^(n + 17)`` of frames with ``n`` on-air bits between their flags.
 
     Model: tone decisions err independently with probability ``p``.  With
-    NRZI a tone error changes the bit of its own symbol and that of the next
-    symbol (two bit errors; one inside the frame and one in a flag at the
-    frame's edges), so the content of a frame of ``n`` on-air bits is hit by
-    an error in any of the ``n`` symbols carrying it or in the symbol just
-    before them: ``n + 1`` symbols.  Every such hit changes the content, and
-    the 16-bit FCS misses a changed frame with probability of the order of
-    2^-16, neglected.  Errors in the flags themselves, which can lose or join
-    frames, are not modelled.
+    NRZI bit ``k`` compares symbols ``k - 1`` and ``k``, so a tone error
+    changes two consecutive bits.  A frame is received intact when its ``n``
+    on-air bits and its two flags (16 bits) are: those ``n + 16`` bits depend
+    on ``n + 17`` symbols (the bits' own and the one before the first), the
+    symbols of :func:`known_symbols`.  An error in the content changes it,
+    and the 16-bit FCS misses a changed frame with probability of the order
+    of 2^-16 (neglected); an error in a flag moves or removes it, so the frame
+    runs into a neighbour and fails its FCS too.  With one flag shared
+    between two frames, its loss joins them into one invalid frame, so the
+    rate measured over the frames found then runs a little below this (by at
+    most the flags' share of the symbols, ``16 / (n + 17)``, of it).
 
     References
     ----------
-    .. [1] ISO/IEC 13239 (NRZI, zero-bit insertion, FCS) -- from memory.
+    .. [1] ISO/IEC 13239 (NRZI, flags, zero-bit insertion, FCS) -- from memory.
     .. [2] J. G. Proakis, *Digital Communications*, McGraw-Hill (independent
-       symbol errors, block error probability) -- from memory.
+       symbol errors, block error probability ``1 - (1 - p)^n``) -- from memory.
     """
     p = np.asarray(tone_error_rate, dtype=float)
     n = np.asarray(on_air_bits, dtype=float)
-    return -np.expm1((n + 1.0) * np.log1p(-np.minimum(p, 1.0 - 1e-16)))
+    return -np.expm1((n + FRAME_EDGE_SYMBOLS) * np.log1p(-np.minimum(p, 1.0 - 1e-16)))
 
 
 def _tone_rate_for(fer: float, bits: np.ndarray) -> float:
