@@ -83,9 +83,10 @@ def analyze(
     fmt: Optional[RawFormat] = typer.Option(None, "--format", help="Sample format of a raw file "
                                                                   "(little-endian interleaved I/Q)."),
     reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
-                                            help="Test pattern: auto (detect an ITU-T O.150 PRBS; the default), "
-                                                 "none, PN7, PN9, PN11, PN15, PN23, or bits:FILE (text of 0/1, "
-                                                 "repeated)."),
+                                            help="Test pattern: auto (detect an ITU-T O.150 PRBS, else HDLC "
+                                                 "frames; the default), none, frames (HDLC traffic: the frames "
+                                                 "with a valid FCS are the reference), PN7, PN9, PN11, PN15, "
+                                                 "PN23, or bits:FILE (text of 0/1, repeated)."),
     decision: str = typer.Option("square-law", "--decision", help="square-law, or likelihood (weighs each "
                                                                   "envelope by its own tone energy)."),
     out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
@@ -100,6 +101,15 @@ def analyze(
     annotate: bool = typer.Option(False, "--annotate",
                                   help="SigMF captures: write OUT/NAME.annotated.sigmf-meta, a copy of the "
                                        "metadata with one annotation per burst (the input is not changed)."),
+    bits: Optional[Path] = typer.Option(None, "--bits", metavar="FILE",
+                                        help="Write the decisions: for every burst a header line starting with "
+                                             "# (burst index, start sample, symbol rate, tones), then one line "
+                                             "of 0/1, the decided tone of each symbol (0 = lower tone, 1 = upper "
+                                             "tone), for a frame decoder of your own."),
+    frames_out: Optional[Path] = typer.Option(None, "--frames-out", metavar="FILE",
+                                              help="Write the HDLC frames with a valid FCS found in the "
+                                                   "decisions: the content without flags and FCS, one frame a "
+                                                   "line, in hex."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
     strict: bool = typer.Option(False, "--strict", help="Treat a SigMF checksum mismatch as an error, "
@@ -123,7 +133,7 @@ def analyze(
                            fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
                            name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet,
                            spec_path=spec, pdf_path=pdf_path, annotate=annotate, strict=strict,
-                           workers=workers)
+                           workers=workers, bits_path=bits, frames_path=frames_out)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001 - every failure becomes one error line
@@ -148,6 +158,11 @@ def synth(
     symbols: int = typer.Option(2000, "--symbols", help="Symbols per burst."),
     gap: float = typer.Option(4000.0, "--gap", help="Samples of noise between bursts."),
     pattern: str = typer.Option("PN9", "--pattern", help="ITU-T O.150 pattern: PN7, PN9, PN11, PN15, PN23."),
+    framing: str = typer.Option("none", "--framing", help="none (the --pattern), or hdlc: HDLC frames of random "
+                                                          "payloads (NRZI, zero-bit insertion, X.25 FCS), flags "
+                                                          "before, between and after them."),
+    frame_bytes: int = typer.Option(32, "--frame-bytes", metavar="N", help="With --framing hdlc: payload bytes "
+                                                                           "of each frame (the FCS is added)."),
     amplitudes: str = typer.Option("1,1", "--amplitudes", metavar="A0,A1", help="Relative tone amplitudes."),
     ramp: float = typer.Option(0.0, "--ramp", help="Power ramp at each burst edge, symbols."),
     datatype: str = typer.Option("cf32_le", "--datatype", help="SigMF datatype: cf32_le or ci16_le."),
@@ -163,7 +178,8 @@ def synth(
         path = run_synth(out=out, tones=_pair(tones, "--tones"), baud=baud, rate=rate, ebn0=ebn0, offset=offset,
                          continuous_phase=continuous_phase, start=start, rate_error=rate_error, bursts=bursts,
                          symbols=symbols, gap=gap, pattern=pattern, amplitudes=_pair(amplitudes, "--amplitudes"),
-                         ramp=ramp, datatype=datatype, audio=audio, centre=centre, seed=seed, overwrite=overwrite)
+                         ramp=ramp, datatype=datatype, audio=audio, centre=centre, seed=seed, overwrite=overwrite,
+                         framing=framing, frame_bytes=frame_bytes)
     except Exception as exc:  # noqa: BLE001
         _fail(exc)
     typer.echo(f"wrote {path}")

@@ -49,14 +49,19 @@ def _base_name(capture: Path, name: str | None) -> str:
 
 def report_paths(capture: Path, out: Path, name: str | None, json_path: Path | None,
                  html_path: Path | None, pdf_path: Path | None = None,
-                 annotate: bool = False) -> dict[str, Path]:
-    """Where each report goes (PDF and annotated SigMF metadata only when asked for)."""
+                 annotate: bool = False, bits_path: Path | None = None,
+                 frames_path: Path | None = None) -> dict[str, Path]:
+    """Where each report goes (PDF, annotated SigMF metadata, decisions and frames only when asked for)."""
     base = _base_name(capture, name)
     paths = {"json": json_path or out / f"{base}.json", "html": html_path or out / f"{base}.html"}
     if pdf_path is not None:
         paths["pdf"] = pdf_path
     if annotate:
         paths["annotated"] = out / f"{base}.annotated.sigmf-meta"
+    if bits_path is not None:
+        paths["bits"] = bits_path
+    if frames_path is not None:
+        paths["frames"] = frames_path
     return paths
 
 
@@ -100,7 +105,8 @@ def write_all(items: list[tuple[Path, bytes | str]]) -> list[Path]:
 def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, decision: str, out: Path,
                 name: str | None, json_path: Path | None, html_path: Path | None, overwrite: bool,
                 quiet: bool, spec_path: Path | None = None, pdf_path: Path | None = None,
-                annotate: bool = False, strict: bool = False, workers: int | None = None) -> int:
+                annotate: bool = False, strict: bool = False, workers: int | None = None,
+                bits_path: Path | None = None, frames_path: Path | None = None) -> int:
     """Analyse, judge against the spec, write the reports, print the summary; return the exit code."""
     from .report.html import render_html
     from .report.terminal import print_summary
@@ -110,7 +116,7 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
     if annotate and not capture.name.endswith((".sigmf-meta", ".sigmf-data")):
         raise InputError("--annotate needs a SigMF capture (.sigmf-meta/.sigmf-data)", capture,
                          "annotations are written into a copy of the SigMF metadata; other formats have none")
-    paths = report_paths(capture, Path(out), name, json_path, html_path, pdf_path, annotate)
+    paths = report_paths(capture, Path(out), name, json_path, html_path, pdf_path, annotate, bits_path, frames_path)
     inputs = _inputs(capture)
     if reference.startswith("bits:"):
         inputs.append(Path(reference[5:]))
@@ -119,7 +125,7 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
     resolved = [p.resolve() for p in paths.values()]
     if len(set(resolved)) < len(resolved):
         raise InputError("two of the reports would be the same file", paths["json"],
-                         "give --json, --html and --pdf different names")
+                         "give --json, --html, --pdf, --bits and --frames-out different names")
     for p in paths.values():
         check_output(p, inputs, overwrite)
     prog, cb = _progress_bar(quiet)
@@ -151,6 +157,13 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
         from .report.annotate import annotated_metadata
 
         items.append((paths["annotated"], annotated_metadata(result, report)))
+    if "bits" in paths or "frames" in paths:
+        from .report.bits import decisions_text, valid_frames_text
+
+        if "bits" in paths:
+            items.append((paths["bits"], decisions_text(result)))
+        if "frames" in paths:
+            items.append((paths["frames"], valid_frames_text(result)))
     written = write_all(items)
     for w in result.warnings:
         print(f"warning: {w}", file=sys.stderr)
@@ -160,7 +173,8 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
 
 
 def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, start, rate_error, bursts, symbols,
-              gap, pattern, amplitudes, ramp, datatype, audio, centre, seed, overwrite) -> Path:
+              gap, pattern, amplitudes, ramp, datatype, audio, centre, seed, overwrite, framing: str = "none",
+              frame_bytes: int = 32) -> Path:
     """Synthesise a capture and write it with its truth."""
     from .synth import SynthParams, synthesize
     from . import writers
@@ -170,7 +184,8 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
                              centre_offset_hz=offset, continuous_phase=continuous_phase,
                              start_offset_samples=start, rate_error_ppm=rate_error, n_bursts=bursts,
                              symbols_per_burst=symbols, gap_samples=gap, pattern=pattern,
-                             tone_amplitudes=tuple(amplitudes), ramp_symbols=ramp, real=audio, seed=seed)
+                             tone_amplitudes=tuple(amplitudes), ramp_symbols=ramp, real=audio, seed=seed,
+                             framing=framing, frame_bytes=frame_bytes)
     except ValueError as exc:
         raise InputError(str(exc), None, "see tonepair synth --help") from None
     res = synthesize(params)

@@ -13,7 +13,7 @@ from typing import Callable
 
 import numpy as np
 
-from . import acquire, branches, decide, diagnostics, estimate, prbs, signal_energy, survey, theory
+from . import acquire, branches, decide, diagnostics, estimate, frames, prbs, signal_energy, survey, theory
 from .capture import Capture, open_capture
 from .errors import CaptureWarning, InputError, warn
 from .heap import keep_freed_memory
@@ -51,7 +51,8 @@ class AnalysisOptions:
     symbol_rate_hz : float or None
         Nominal symbol rate (hint), Hz.
     reference : str
-        ``"auto"``, ``"none"``, an O.150 name (``"PN9"``...) or ``"bits:FILE"``.
+        ``"auto"``, ``"none"``, ``"frames"`` (HDLC frames with a valid FCS), an O.150
+        name (``"PN9"``...) or ``"bits:FILE"``.
     decision : str
         ``"square-law"`` (default) or ``"likelihood"`` (unequal-energy rule).
     """
@@ -107,6 +108,8 @@ class BurstResult:
     noise_correlation: diagnostics.NoiseCorrelation | None = None
     output_correlation: np.ndarray | None = None      # (2, 4, 4), see diagnostics.output_correlations
     energy: signal_energy.EnergySums | None = None    # sums behind the physical Eb/N0 (pooled in the summary)
+    frames: frames.FrameCount | None = None           # HDLC frames, when they are the reference
+    frame_theory: frames.FrameTheory | None = None
 
     @property
     def n_symbols(self) -> int:
@@ -134,6 +137,8 @@ class Summary:
     ber: BerCount | None
     ber_theory: float
     loss: theory.LossEstimate | None
+    frames: frames.FrameCount | None = None
+    frame_theory: frames.FrameTheory | None = None
 
 
 @dataclass(frozen=True)
@@ -254,7 +259,7 @@ def _merge_spans(spans, gap: int, margin: int, n_samples: int) -> list[tuple[int
 def _resolve_reference(opts: AnalysisOptions, bits: np.ndarray, bits_file_text: str | None):
     """The reference to count errors against, or None (with the tone mapping found)."""
     ref = opts.reference
-    if ref == "none":
+    if ref in ("none", "frames"):
         return None
     if ref == "auto":
         det = prbs.detect_pattern(bits)
@@ -477,11 +482,16 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
             out = branches.correlate(x, x_start, grid, tones, fs)
         dec = decide.square_law(out.z)
         ec, low_one = count(dec, ref)
-    if ec is not None and ec.synced and ec.bits > 0:
+    prbs_synced = ec is not None and ec.synced and ec.bits > 0
+    fc = _frame_count(opts, dec) if not prbs_synced else None
+    if prbs_synced:
         sent = np.where(ec.counted, ec.expected, dec).astype(np.uint8)
         mask = ec.counted
         data_aided = True
         ber = _ber_count(ec, low_one)
+    elif fc is not None and fc.known_symbols > 0:
+        # the valid frames are the reference: their symbols are known
+        sent, mask, data_aided, ber = fc.expected, fc.known, True, None
     else:
         sent, mask, data_aided, ber = dec, None, False, None
     mom = estimate.group_moments(out.z, sent, mask)
@@ -496,6 +506,8 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         ec, low_one = count(dec, ref)
         if ec is not None and ec.synced and ec.bits > 0:
             ber = _ber_count(ec, low_one)
+        if fc is not None:
+            fc = frames.count_frames(dec)
 
     model = theory.LinkModel(tone_correlation=float(min(abs(rho), 0.999)),
                              imbalance_db=float(stats.imbalance_db) if np.isfinite(stats.imbalance_db) else 0.0)
@@ -503,6 +515,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     loss = None
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
+    fth = frames.frame_theory(stats.ebn0, model, fc, stats.ebn0_db, stats.ebn0_db_ci95) if fc is not None else None
     p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
     diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows)
     return BurstResult(
@@ -512,7 +525,18 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         ber_theory=ber_th, theory_model=model, loss=loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
         nominal_tones_hz=opts.tones_hz, phase_continuity=float(estimate.phase_continuity(out.z, sent)),
-        energy=energy, **diag)
+        energy=energy, frames=fc, frame_theory=fth, **diag)
+
+
+def _frame_count(opts: AnalysisOptions, dec: np.ndarray) -> frames.FrameCount | None:
+    """The HDLC frames in a burst's final decisions when they are the reference: always with
+    ``--reference frames``, under ``auto`` (no pattern synced) when the burst looks framed."""
+    if opts.reference not in ("frames", "auto"):
+        return None
+    fc = frames.count_frames(dec)
+    if opts.reference == "auto" and not frames.looks_framed(fc):
+        return None
+    return fc
 
 
 def _correlate_again(x, x_start, grid, tones, fs, prev: branches.BranchOutputs | None) -> branches.BranchOutputs:
@@ -663,7 +687,13 @@ def _summary(bursts: list[BurstResult]) -> Summary:
     loss = None
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
-    return Summary(stats=stats, ber=ber, ber_theory=ber_th, loss=loss)
+    counts = [b.frames for b in bursts if b.frames is not None]
+    fr = frames.pool_counts(counts) if counts else None
+    fth = None
+    if fr is not None and stats is not None:
+        fth = frames.pooled_theory(counts, [b.frame_theory for b in bursts if b.frames is not None],
+                                   stats.ebn0_db, stats.ebn0_db_ci95)
+    return Summary(stats=stats, ber=ber, ber_theory=ber_th, loss=loss, frames=fr, frame_theory=fth)
 
 
 # --------------------------------------------------------------------------- entry points
@@ -1001,8 +1031,9 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     sample_rate_hz, fmt : optional
         For raw files: sample rate and ``cf32|ci16|ci8|cu8``.
     reference : str
-        ``auto`` (detect an O.150 pattern), ``none``, ``PN7`` ... ``PN23`` or
-        ``bits:FILE`` (a text file of 0/1 characters, repeated cyclically).
+        ``auto`` (detect an O.150 pattern, else HDLC frames), ``none``, ``frames``
+        (HDLC frames with a valid FCS), ``PN7`` ... ``PN23`` or ``bits:FILE`` (a
+        text file of 0/1 characters, repeated cyclically).
     decision : str
         ``square-law`` or ``likelihood``.
     progress : callable, optional
@@ -1043,9 +1074,9 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
         except OSError as exc:
             raise InputError(f"cannot read the bits file ({exc.strerror or exc})", bpath,
                              "give --reference bits:FILE with a text file of 0/1 characters") from None
-    elif reference not in ("auto", "none") and reference not in prbs.PATTERNS:
+    elif reference not in ("auto", "none", "frames") and reference not in prbs.PATTERNS:
         raise InputError(f"unknown reference {reference!r}", None,
-                         "use auto, none, " + ", ".join(prbs.PATTERNS) + " or bits:FILE")
+                         "use auto, none, frames, " + ", ".join(prbs.PATTERNS) + " or bits:FILE")
     if decision not in ("square-law", "likelihood"):
         raise InputError(f"unknown decision rule {decision!r}", None, "use square-law or likelihood")
     opts = AnalysisOptions(tones_hz=None if tones_hz is None else (float(tones_hz[0]), float(tones_hz[1])),

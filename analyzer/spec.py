@@ -121,9 +121,9 @@ def _parse_link(table, path) -> Link:
             if path is not None and not bits.is_absolute():
                 bits = Path(path).parent / bits      # relative to the spec file
             ref = f"bits:{bits}"
-        elif ref not in ("auto", "none") and ref not in PATTERNS:
+        elif ref not in ("auto", "none", "frames") and ref not in PATTERNS:
             raise InputError(f"link.reference {ref!r} is not a known pattern", path,
-                             "use auto, none, " + ", ".join(PATTERNS) + " or bits:FILE")
+                             "use auto, none, frames, " + ", ".join(PATTERNS) + " or bits:FILE")
     return Link(tones, rate, ref)
 
 

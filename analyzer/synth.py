@@ -41,7 +41,7 @@ from dataclasses import dataclass, field, asdict
 
 import numpy as np
 
-from . import prbs
+from . import frames, prbs
 
 __all__ = ["SynthParams", "SynthResult", "synthesize"]
 
@@ -96,8 +96,21 @@ class SynthParams:
     noise_drift_db : float
         Noise power changes linearly in dB from ``-drift/2`` at the first
         sample to ``+drift/2`` at the last (``ebn0_db`` holds at the middle).
+    framing : str
+        ``"none"``: the bursts carry the PRBS ``pattern``.  ``"hdlc"``: each
+        burst carries HDLC frames (ISO/IEC 13239: NRZI, zero-bit insertion,
+        FCS as in ITU-T X.25) of random payloads of ``frame_bytes`` octets:
+        ``preamble_flags`` flags, then frames with ``flags_between`` flags
+        after each, as many as fit, the rest of the burst filled with flags.
+        The truth lists each frame (first symbol after its opening flag, bytes).
+    frame_bytes : int
+        Payload octets of each frame (the 2-octet FCS is added).
+    preamble_flags : int
+        Flags before the first frame of a burst.
+    flags_between : int
+        Flags after each frame.
     seed : int
-        Seed of the random generator (noise and random phases).
+        Seed of the random generator (noise, random phases and frame payloads).
     """
 
     tones_hz: tuple[float, float] = (-2500.0, 2500.0)
@@ -119,6 +132,10 @@ class SynthParams:
     burst_gains_db: tuple[float, ...] = field(default_factory=tuple)
     real: bool = False
     noise_drift_db: float = 0.0
+    framing: str = "none"
+    frame_bytes: int = 32
+    preamble_flags: int = 8
+    flags_between: int = 1
     seed: int = 1
 
     def __post_init__(self) -> None:
@@ -137,6 +154,16 @@ class SynthParams:
             raise ValueError("symbol_ramp must be between 0 and 0.5 symbols")
         if self.pattern not in prbs.PATTERNS:
             raise ValueError(f"unknown pattern {self.pattern!r}")
+        if self.framing not in ("none", "hdlc"):
+            raise ValueError(f"unknown framing {self.framing!r} (none or hdlc)")
+        if self.framing == "hdlc":
+            if self.frame_bytes < 2 or self.preamble_flags < 1 or self.flags_between < 1:
+                raise ValueError("hdlc framing needs frames of at least 2 bytes and at least one flag before "
+                                 "and after each")
+            need = 8 * (self.preamble_flags + self.flags_between) + frames.frame_bits(bytes(self.frame_bytes)).size + 1
+            if self.symbols_per_burst < need:
+                raise ValueError(f"a burst of {self.symbols_per_burst} symbols cannot hold one frame of "
+                                 f"{self.frame_bytes} bytes with its flags (about {need} symbols or more)")
 
 
 @dataclass(frozen=True)
@@ -169,6 +196,28 @@ def _noise_sigma(p: SynthParams, amplitude: float) -> float:
     n0 = eb / 10.0 ** (p.ebn0_db / 10.0)
     # complex: N0 = sigma^2 ; real: N0 = 2 sigma^2
     return float(np.sqrt(n0 / 2.0) if p.real else np.sqrt(n0))
+
+
+def _framed_tones(p: SynthParams, rng: np.random.Generator) -> tuple[np.ndarray, list[list[dict]]]:
+    """Tone indices of HDLC traffic for every burst (see ``SynthParams.framing``) and each burst's frames."""
+    n_sym = p.symbols_per_burst
+    out, listed = [], []
+    for _ in range(p.n_bursts):
+        parts = [np.tile(frames.FLAG_BITS, p.preamble_flags)]
+        used, sent = parts[0].size, []
+        closing = np.tile(frames.FLAG_BITS, p.flags_between)
+        while True:
+            payload = rng.integers(0, 256, p.frame_bytes, dtype=np.uint8).tobytes()
+            body = frames.frame_bits(payload)
+            if used + body.size + closing.size > n_sym - 1:
+                break
+            sent.append({"start_symbol": used + 1, "hex": payload.hex()})
+            parts += [body, closing]
+            used += body.size + closing.size
+        fill = np.tile(frames.FLAG_BITS, (n_sym - 1 - used) // 8 + 1)[:n_sym - 1 - used]
+        out.append(frames.nrzi_encode(np.concatenate(parts + [fill]), int(rng.integers(0, 2))))
+        listed.append(sent)
+    return np.concatenate(out), listed
 
 
 def synthesize(p: SynthParams) -> SynthResult:
@@ -204,7 +253,11 @@ def synthesize(p: SynthParams) -> SynthResult:
     amps = np.asarray(p.tone_amplitudes, dtype=float) * amplitude
     gains = np.asarray(p.burst_gains_db if p.burst_gains_db else (0.0,), dtype=float)
 
-    all_bits = prbs.prbs_sequence(p.pattern, n_sym * p.n_bursts)
+    framed = None
+    if p.framing == "hdlc":
+        all_bits, framed = _framed_tones(p, rng)
+    else:
+        all_bits = prbs.prbs_sequence(p.pattern, n_sym * p.n_bursts)
     samples = np.zeros(total, dtype=float if p.real else complex)
     n = np.arange(total, dtype=float)
     bursts = []
@@ -243,6 +296,8 @@ def synthesize(p: SynthParams) -> SynthResult:
             "symbol_rate_hz": float(fs / sps_tx),
             "gain_db": float(gains[b % len(gains)]),
         })
+        if framed is not None:
+            bursts[-1]["frames"] = framed[b]
 
     sigma = _noise_sigma(p, amplitude)
     if sigma > 0:

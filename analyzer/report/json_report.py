@@ -80,6 +80,25 @@ def _loss(loss):
     return _num(loss.value), _pair(loss.ci95)
 
 
+def _frames(fc, th, grid=None):
+    """``frames`` of a burst (with the list of frames when its ``grid`` is given) or of the summary."""
+    if fc is None:
+        return None
+    lv, lci = _loss(th.loss if th is not None else None)
+    d = {"found": int(fc.found), "valid": int(fc.valid), "error_rate": _num(fc.error_rate),
+         "ci95": _pair(fc.ci95), "known_symbols": int(fc.known_symbols),
+         "tone_error_rate_theory": _num(th.tone_error_rate) if th is not None else None,
+         "error_rate_theory": _num(th.error_rate) if th is not None else None,
+         "implementation_loss_db": lv, "implementation_loss_db_ci95": lci}
+    if grid is not None:
+        d["frames"] = [{"start_sample": _num(grid.first_start + f.start_symbol * grid.samples_per_symbol),
+                        "start_symbol": int(f.start_symbol), "on_air_bits": int(f.on_air_bits),
+                        "length_bytes": int(f.length_bytes) if f.length_bytes >= 0 else None,
+                        "fcs_valid": bool(f.fcs_valid), "aborted": bool(f.aborted), "hex": f.data.hex()}
+                       for f in fc.frames]
+    return d
+
+
 def burst_dict(b, sample_rate_hz: float) -> dict:
     """One entry of ``bursts[]``."""
     lv, lci = _loss(b.loss)
@@ -111,6 +130,7 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "keying": ("continuous-phase" if b.phase_continuity > 0.5 else "phase-discontinuous")
         if np.isfinite(b.phase_continuity) else None,
         "timing_quality": _num(b.timing_quality),
+        "frames": _frames(getattr(b, "frames", None), getattr(b, "frame_theory", None), b.grid),
     }
     d["diagnostics"] = {
         "model_checks": [{"name": c.name, "statistic": _num(c.statistic), "p_value": _num(c.p_value),
@@ -159,6 +179,7 @@ def build_report(result, checks: list[dict] | None = None, verdict: str = "not-j
         "ber_theory": _num(s.ber_theory),
         "implementation_loss_db": lv,
         "implementation_loss_db_ci95": lci,
+        "frames": _frames(getattr(s, "frames", None), getattr(s, "frame_theory", None)),
     }
     opts = result.options
     return {

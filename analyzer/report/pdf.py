@@ -122,6 +122,40 @@ def summary_page(report: dict, generated: str):
     return fig
 
 
+FRAME_ROWS = 40          # frames listed on the PDF page
+FRAME_HEX_CHARS = 48     # hex characters of a frame shown in the table
+
+
+def frames_page(report: dict):
+    """The HDLC frames found (from the JSON-ready report): counts, theory and a table of frames."""
+    fr = report["summary"]["frames"]
+    fig = plt.figure(figsize=A4)
+    fig.text(0.08, 0.95, "Frames", fontsize=16, weight="bold", color=INK)
+    lines = [f"{fr['valid']} of {fr['found']} HDLC frames with a valid frame check sequence; "
+             f"{fr['known_symbols']:,} symbols known from them.",
+             f"Frame error rate {fmt_sci(fr['error_rate'])} (95%: {_ci(fr['ci95'], sci=True)}); theory at the "
+             f"measured Eb/N0 {fmt_sci(fr['error_rate_theory'])}."]
+    if fr["implementation_loss_db_ci95"][1] is not None:
+        lines.append(f"Implementation loss from the frame error rate {fmt_num(fr['implementation_loss_db'], 2, 'dB')} "
+                     f"(95%: {_ci(fr['implementation_loss_db_ci95'])} dB).")
+    for i, t in enumerate(lines):
+        fig.text(0.08, 0.915 - 0.02 * i, t, fontsize=8.5, color=INK)
+    rows = []
+    for bd in report["bursts"]:
+        for f in (bd.get("frames") or {}).get("frames", []):
+            h = f["hex"]
+            rows.append([str(bd["index"]), fmt_num(f["start_sample"], 1),
+                         "–" if f["length_bytes"] is None else str(f["length_bytes"]),
+                         "yes" if f["fcs_valid"] else ("aborted" if f["aborted"] else "no"),
+                         h[:FRAME_HEX_CHARS] + ("…" if len(h) > FRAME_HEX_CHARS else "")])
+    ax = fig.add_axes([0.05, 0.08, 0.9, 0.76])
+    _table(ax, rows[:FRAME_ROWS], ["burst", "start sample", "bytes", "FCS valid", "bytes (hex)"],
+           [0.07, 0.15, 0.08, 0.1, 0.6], fontsize=7)
+    if len(rows) > FRAME_ROWS:
+        fig.text(0.08, 0.05, f"… {len(rows) - FRAME_ROWS} more frames in the JSON report", fontsize=7)
+    return fig
+
+
 def _wrap(text: str, width: int = 70) -> str:
     import textwrap
     return "\n".join(textwrap.wrap(text, width))
@@ -239,6 +273,8 @@ def render_pdf(result, report: dict) -> bytes:
     then per burst (up to four) the diagnostics page, I/Q planes, Eb/N0 trend and loss split."""
     generated = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     pages = [summary_page(report, generated), figures.spectrogram(result), figures.spectrum(result)]
+    if report["summary"].get("frames"):
+        pages.insert(1, frames_page(report))
     pages += [figures.envelope_histograms(result, i) for i in range(min(len(result.bursts), 4))]
     pages.append(figures.ber_curve(result))
     for i in range(min(len(result.bursts), 4)):

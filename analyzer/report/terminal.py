@@ -39,8 +39,19 @@ def print_summary(report: dict, console: Console | None = None, written: list[st
         t.add_row("BER", f"{_e(b['rate'])}  ({b['errors']}/{b['bits']:,})",
                   f"{_e(b['ci95'][0])} … {_e(b['ci95'][1])}")
         t.add_row("pattern", f"{b['reference']}, ONE = {b['tone_for_one']} tone, {b['slips']} slips", "")
+    elif s.get("frames"):
+        t.add_row("BER", "not counted (the frames are the reference)", "")
     else:
         t.add_row("BER", "not counted (no reference pattern)", "")
+    fr = s.get("frames")
+    if fr:
+        t.add_row("frames (HDLC)", f"{fr['valid']} of {fr['found']} with a valid FCS, "
+                  f"{fr['known_symbols']:,} symbols known", "")
+        t.add_row("frame error rate", f"{_g(fr['error_rate'])}  (theory {_g(fr['error_rate_theory'])})",
+                  f"{_g(fr['ci95'][0])} … {_g(fr['ci95'][1])}")
+        if fr["implementation_loss_db"] is not None or fr["implementation_loss_db_ci95"][1] is not None:
+            flo, fhi = fr["implementation_loss_db_ci95"]
+            t.add_row("loss from frames", _f(fr["implementation_loss_db"], 2, "dB"), f"{_f(flo)} … {_f(fhi)} dB")
     t.add_row("BER theory", _e(s["ber_theory"]), "")
     llo, lhi = s["implementation_loss_db_ci95"]
     t.add_row("implementation loss", _f(s["implementation_loss_db"], 2, "dB"), f"{_f(llo)} … {_f(lhi)} dB")
