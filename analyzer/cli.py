@@ -144,14 +144,48 @@ def analyze(
 @app.command()
 def synth(
     out: Path = typer.Argument(..., help="Output: NAME.sigmf-meta (or NAME for SigMF), NAME.wav or NAME.flac."),
-    tones: str = typer.Option("-2500,2500", "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
+    tones: str = typer.Option("-2500,2500", "--tones", metavar="F0,F1",
+                              help="Nominal tones, Hz (the steady tones a long run of one symbol settles to)."),
     baud: float = typer.Option(5000.0, "--baud", help="Symbol rate, Hz."),
     rate: float = typer.Option(80000.0, "--rate", help="Sample rate, Hz."),
-    ebn0: float = typer.Option(10.0, "--ebn0", help="Eb/N0 in dB (average bit energy over N0, N0 over the "
-                                                    "sample bandwidth)."),
+    ebn0: float = typer.Option(10.0, "--ebn0", help="Eb/N0 at the capture in dB: signal energy per bit as "
+                                                    "written (after any filter) over the noise density N0 "
+                                                    "(in the passband; for receiver audio at the two tones)."),
     offset: float = typer.Option(0.0, "--offset", help="Transmitter frequency error added to both tones, Hz."),
-    continuous_phase: bool = typer.Option(False, "--continuous-phase/--random-phase",
-                                          help="Continuous-phase keying, or a random phase per symbol."),
+    continuous_phase: bool = typer.Option(True, "--continuous-phase/--random-phase",
+                                          help="Continuous phase (a VCO or DDS modulator; the default), or an "
+                                               "independent random phase jump at every symbol boundary."),
+    pulse: str = typer.Option("rect", "--pulse", metavar="SHAPE",
+                              help="Frequency pulse: rect (hard keying), gaussian (with --bt; GMSK-style) or "
+                                   "raised-cosine (with --transition). Example: --pulse gaussian --bt 0.3"),
+    bt: float = typer.Option(0.5, "--bt", help="Bandwidth-time product of the Gaussian pulse (0.5, 0.3 ...)."),
+    transition: float = typer.Option(0.5, "--transition", metavar="SYMBOLS",
+                                     help="Length of each raised-cosine change of tone, in symbols (1 = the "
+                                          "whole symbol; at most 1 keeps the tone steady mid-symbol)."),
+    deviation: Optional[float] = typer.Option(None, "--deviation", metavar="HZ",
+                                              help="Deviation (half the tone spacing), Hz; the tones become the "
+                                                   "midpoint of --tones -/+ HZ. Example: --tones 1200,2200 "
+                                                   "--deviation 400 sends 1300 and 2100 Hz."),
+    index: Optional[float] = typer.Option(None, "--index", metavar="H",
+                                          help="Modulation index h = tone spacing / symbol rate, instead of "
+                                               "--deviation (h = 0.5: minimum-shift spacing)."),
+    drift: float = typer.Option(0.0, "--drift", metavar="HZ",
+                                help="Linear frequency drift of both tones over each burst, Hz (centred: the "
+                                     "steady tones hold at the burst middle)."),
+    channel_filter: float = typer.Option(0.0, "--channel-filter", metavar="HZ",
+                                         help="I/Q: low-pass channel filter passing |f| <= HZ (as an SDR's "
+                                              "decimation filter), on signal and noise; 0 = none."),
+    receiver_audio: bool = typer.Option(False, "--receiver-audio",
+                                        help="Audio: pass signal and noise through an FM receiver's audio chain "
+                                             "(voice-band band-pass --band, de-emphasis --deemphasis)."),
+    band: str = typer.Option("300,3000", "--band", metavar="LO,HI",
+                             help="Band-pass edges of --receiver-audio, Hz."),
+    deemphasis: float = typer.Option(750.0, "--deemphasis", metavar="US",
+                                     help="De-emphasis time constant of --receiver-audio, microseconds (750 for "
+                                          "narrow-band FM, 75 or 50 for broadcast; 0 = off)."),
+    tilt: float = typer.Option(0.0, "--tilt", metavar="DB",
+                               help="Audio: level of the upper tone over the lower one, dB, on signal and noise "
+                                    "(negative: upper weaker). Example: --receiver-audio --tilt -4"),
     start: float = typer.Option(1000.0, "--start", help="Fractional sample where the first symbol begins."),
     rate_error: float = typer.Option(0.0, "--rate-error", help="Symbol-rate error, ppm."),
     bursts: int = typer.Option(1, "--bursts", help="Number of bursts."),
@@ -171,15 +205,29 @@ def synth(
     seed: int = typer.Option(1, "--seed", help="Random seed."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace files that exist."),
 ):
-    """Write a synthetic capture of FSK bursts in noise, with its truth (demo data and tests)."""
+    """Write a synthetic capture of FSK bursts in noise, with its truth (demo data and tests).
+
+    \b
+    Examples:
+      tonepair synth gmsk.sigmf-meta --pulse gaussian --bt 0.5 --ebn0 20
+      tonepair synth link.sigmf-meta --index 1 --channel-filter 6000 --drift 200
+      tonepair synth radio.wav --audio --tones 1200,2200 --baud 1200 --rate 48000 --receiver-audio --tilt -3
+      tonepair synth old.sigmf-meta --random-phase     (switched oscillators)
+    """
     from .commands import run_synth
 
     try:
+        if deviation is not None and index is not None:
+            raise InputError("give --deviation or --index, not both", None, "--index H means deviation H*baud/2")
         path = run_synth(out=out, tones=_pair(tones, "--tones"), baud=baud, rate=rate, ebn0=ebn0, offset=offset,
                          continuous_phase=continuous_phase, start=start, rate_error=rate_error, bursts=bursts,
                          symbols=symbols, gap=gap, pattern=pattern, amplitudes=_pair(amplitudes, "--amplitudes"),
                          ramp=ramp, datatype=datatype, audio=audio, centre=centre, seed=seed, overwrite=overwrite,
-                         framing=framing, frame_bytes=frame_bytes)
+                         framing=framing, frame_bytes=frame_bytes,
+                         pulse=pulse, bt=bt, transition=transition,
+                         deviation=(0.5 * index * baud if index is not None else deviation), drift=drift,
+                         channel_filter=channel_filter, receiver_audio=receiver_audio,
+                         band=_pair(band, "--band"), deemphasis=deemphasis, tilt=tilt)
     except Exception as exc:  # noqa: BLE001
         _fail(exc)
     typer.echo(f"wrote {path}")

@@ -174,7 +174,9 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
 
 def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, start, rate_error, bursts, symbols,
               gap, pattern, amplitudes, ramp, datatype, audio, centre, seed, overwrite, framing: str = "none",
-              frame_bytes: int = 32) -> Path:
+              frame_bytes: int = 32, pulse="rect", bt=0.5,
+              transition=0.5, deviation=None, drift=0.0, channel_filter=0.0, receiver_audio=False,
+              band=(300.0, 3000.0), deemphasis=750.0, tilt=0.0) -> Path:
     """Synthesise a capture and write it with its truth."""
     from .synth import SynthParams, synthesize
     from . import writers
@@ -185,7 +187,10 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
                              start_offset_samples=start, rate_error_ppm=rate_error, n_bursts=bursts,
                              symbols_per_burst=symbols, gap_samples=gap, pattern=pattern,
                              tone_amplitudes=tuple(amplitudes), ramp_symbols=ramp, real=audio, seed=seed,
-                             framing=framing, frame_bytes=frame_bytes)
+                             framing=framing, frame_bytes=frame_bytes,
+                             pulse=pulse, bt=bt, transition=transition, deviation_hz=deviation, drift_hz=drift,
+                             channel_filter_hz=channel_filter, receiver_audio=receiver_audio,
+                             audio_band_hz=tuple(band), deemphasis_us=deemphasis, tilt_db=tilt)
     except ValueError as exc:
         raise InputError(str(exc), None, "see tonepair synth --help") from None
     res = synthesize(params)

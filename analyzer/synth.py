@@ -3,36 +3,111 @@
 This module only computes arrays; writing them to SigMF, WAV or FLAC files is
 done by :mod:`analyzer.writers`.
 
-Signal and noise definitions
-----------------------------
+Timing
+------
 Time is measured in samples.  Symbol ``k`` of a burst begins at the fractional
-sample ``t_k = start + k * sps * (1 - rate_error_ppm * 1e-6)`` (a positive
-``rate_error_ppm`` makes the transmitter fast), where ``sps = fs / R_s``.  A
-sample at integer time ``n`` belongs to the symbol whose interval
-``[t_k, t_k+1)`` contains it, so fractional start offsets are exact, not
-interpolated.
+sample ``t_k = start + k * T`` with ``T = sps * (1 - rate_error_ppm * 1e-6)``
+samples (a positive ``rate_error_ppm`` makes the transmitter fast) and
+``sps = fs / R_s``.  A sample at integer time ``n`` belongs to the symbol whose
+interval ``[t_k, t_k+1)`` contains it.  Every frequency and phase below is a
+closed-form function of the continuous time ``n - t_k``, so fractional start
+offsets and rate errors are exact, not interpolated.
 
-*Complex baseband* (``real=False``): bit ``b`` sends
-``a_b * A * exp(j(2 pi f_b n / fs + phi_k))``.  The energy of one symbol is the
-sum of ``|x|^2`` over its samples, ``E_b = a_b^2 A^2 sps``.  Complex white
-Gaussian noise with ``E|w|^2 = sigma^2`` per sample has a flat power spectral
-density over the whole sample bandwidth ``fs``; in sample units
-``N0 = sigma^2``.  Hence::
+Frequency and phase
+-------------------
+The tones are ``f_c -/+ dev`` with ``f_c`` the midpoint of ``tones_hz`` plus
+``centre_offset_hz`` and ``dev`` half the tone spacing; ``deviation_hz`` (when
+given) replaces the spacing and keeps the midpoint.  Bit ``b_k`` gives
+``d_k = -dev`` (bit 0) or ``+dev`` (bit 1).  The instantaneous frequency is::
 
-    Eb/N0 = mean_b(a_b^2) * A^2 * sps / sigma^2
+    f(t) = f_c + sum_k d_k g((t - t_k) / T - 1/2) + drift(t)
 
-*Real audio* (``real=True``): bit ``b`` sends ``a_b A cos(2 pi f_b n/fs + phi_k)``;
-``E_b = a_b^2 A^2 sps / 2``.  Real noise of variance ``sigma^2`` has two-sided
-density ``N0/2`` over ``[-fs/2, fs/2]``, i.e. ``N0 = 2 sigma^2``, so::
+with ``g`` the *frequency pulse* (argument in symbols from the symbol centre),
+normalised so that ``sum_k g(u - k) = 1`` for every ``u``: a long run of one
+symbol settles exactly on its tone ``f_c +/- dev`` (the *steady tones*, which
+the truth states).  ``g`` is a unit rectangle of one symbol convolved with a
+kernel of unit area whose distribution function is ``W``:
 
-    Eb/N0 = mean_b(a_b^2) * A^2 * sps / (4 sigma^2)
+* ``rect``: no kernel (``W`` a unit step): rectangular keying, ``g = 1`` on
+  ``[-1/2, 1/2)``.
+* ``gaussian``: a Gaussian kernel of standard deviation
+  ``sigma = sqrt(ln 2) / (2 pi BT)`` symbols (the GMSK frequency pulse, [1]_),
+  ``g(u) = Phi((u + 1/2)/sigma) - Phi((u - 1/2)/sigma)`` with ``Phi`` the
+  standard normal distribution function.  ``bt`` is the bandwidth-time product
+  (0.5 and 0.3 are common).
+* ``raised-cosine``: a raised-cosine (Hann) kernel of total length ``beta =
+  transition`` symbols, so every change of tone is a raised-cosine transition
+  lasting ``beta`` symbols centred on the symbol boundary (``0 < beta <= 1``:
+  full response, the tone is held in the middle of each symbol; ``beta > 1``
+  overlaps neighbouring symbols).  ``W(s) = 1/2 + s/beta + sin(2 pi s/beta)/(2 pi)``
+  for ``|s| <= beta/2``.
 
-In both cases ``Eb`` is the average bit energy over the two tones (bits are
-equiprobable for a PRBS) and ``N0`` is taken over the sample bandwidth.
+The phase is ``2 pi / fs`` times the integral of the frequency, evaluated in
+closed form through the integral of ``W`` (``V(s) = s Phi(s/sigma) + sigma
+phi(s/sigma)`` for the Gaussian), so it is continuous across symbol boundaries
+(continuous-phase FSK, what a VCO or DDS modulator sends; the default).  With
+``continuous_phase=False`` an independent phase, uniform on ``[0, 2 pi)``, is
+added at every symbol boundary on top of the shaped frequency (switched
+oscillators); for rectangular keying this is the original random-phase model,
+sample for sample.  Before the first and after the last symbol the data are
+zero (the modulator idles at ``f_c``) and the burst is gated to its symbols.
 
-Phase: with ``continuous_phase=True`` the carrier phase runs on across symbol
-boundaries (continuous-phase FSK); otherwise each symbol gets an independent
-uniformly distributed phase (phase-discontinuous, switched oscillators).
+``drift_hz`` adds a linear frequency change to both tones within each burst,
+from ``-drift/2`` at its first symbol to ``+drift/2`` at its end, so the steady
+tones hold at the burst middle.
+
+Signal and noise at the capture
+-------------------------------
+Bits come from an ITU-T O.150 pattern.  ``Eb`` is the average signal energy
+per bit *at the capture*: the sum of ``|s|^2`` over the noiseless samples as
+written (after any filter below), divided by the number of bits sent, with
+per-burst gains left out (``ebn0_db`` holds for a 0 dB burst).  The noise is
+scaled so that ``Eb / N0`` equals ``ebn0_db``, whatever the pulse, ramps or
+filters do to the signal energy; the figure measured from the samples is
+written to the truth.  ``N0`` (sample units, i.e. energy per sample per unit of
+normalised bandwidth) is:
+
+* *complex baseband* (``real=False``): white complex Gaussian noise with
+  ``E|w|^2 = sigma^2`` per sample has ``N0 = sigma^2``.  With a channel filter
+  (``channel_filter_hz = B > 0``: a linear-phase low-pass FIR passing
+  ``|f| <= B`` flat within 0.02 dB and stopping ``|f| >= 1.25 B`` by 60 dB,
+  [2]_, the decimation filter of an SDR) applied to signal and noise together,
+  the noise at the capture is coloured; ``N0`` is the density in the passband
+  (that of the white noise before the filter, which the filter passes
+  unchanged near the centre).  The FIR is applied centred (zero delay), so the
+  timing truth is unchanged.
+* *real audio* (``real=True``): real noise of variance ``sigma^2`` has
+  two-sided density ``N0/2 = sigma^2``, so ``N0 = 2 sigma^2``.  With the
+  receiver audio chain (``receiver_audio=True``) signal and noise pass, in this
+  order, a voice-band band-pass (Butterworth, ``audio_order`` poles per edge,
+  edges ``audio_band_hz``, second-order sections), a first-order de-emphasis
+  ``|H(f)| = 1/sqrt(1 + (2 pi f tau)^2)`` with ``tau = deemphasis_us`` (75 us or
+  750 us are used by FM receivers, a 6 dB/octave roll-off above
+  ``1/(2 pi tau)``; common practice; a first-order IIR fitted to that
+  magnitude over the band, :func:`deemphasis_ba`; 0 turns it off) and a level
+  tilt (``tilt_db``, below).  The
+  noise at the capture is then not white; ``N0 = 2 sigma^2 (|H(f_0)|^2 +
+  |H(f_1)|^2) / 2``, the chain's noise density averaged (in power) at the two
+  steady tones.  The filters are causal: the bursts reach the capture delayed
+  by the chain's group delay (averaged at the two tones), which the truth adds
+  to the burst start and stop samples (``chain_delay_samples``).
+
+``tilt_db`` (audio) is a zero-phase gain linear in dB between the steady
+tones, ``tilt_db`` higher at the upper tone than at the lower (0 dB at their
+midpoint, held constant outside them), applied to signal and noise; negative
+values make the upper tone weaker, as de-emphasis does.
+
+``tone_amplitudes`` keys the amplitude with the bit (a level difference at the
+transmitter, applied to the signal only).
+
+References
+----------
+.. [1] K. Murota and K. Hirade, "GMSK modulation for digital mobile radio
+   telephony", IEEE Trans. Communications, vol. 29, no. 7, pp. 1044-1050,
+   1981 (from memory).
+.. [2] J. F. Kaiser, "Nonrecursive digital filter design using the I0-sinh
+   window function", Proc. IEEE ISCAS, 1974 (the Kaiser window; design
+   formulas as in scipy.signal.kaiserord).
 """
 
 from __future__ import annotations
@@ -40,15 +115,20 @@ from __future__ import annotations
 from dataclasses import dataclass, field, asdict
 
 import numpy as np
+from scipy import signal as sps_signal
+from scipy import special
 
 from . import frames, prbs
 
-__all__ = ["SynthParams", "SynthResult", "synthesize"]
+__all__ = ["SynthParams", "SynthResult", "synthesize", "frequency_pulse", "phase_pulse", "PULSES",
+           "channel_filter_taps", "deemphasis_ba", "receiver_audio_sos", "tilt_gain_db"]
+
+PULSES = ("rect", "gaussian", "raised-cosine")
 
 
 @dataclass(frozen=True)
 class SynthParams:
-    """Everything that defines a synthetic capture.
+    """Everything that defines a synthetic capture (see the module docstring).
 
     Attributes
     ----------
@@ -60,11 +140,35 @@ class SynthParams:
     sample_rate_hz : float
         Sample rate fs.
     ebn0_db : float
-        Average bit energy over N0 (see module docstring); ``inf`` for no noise.
+        Eb/N0 at the capture (module docstring); ``inf`` for no noise.
     centre_offset_hz : float
         Frequency error of the transmitter: added to both tones.
     continuous_phase : bool
-        Continuous-phase (True) or a random phase per symbol (False).
+        Continuous phase (True, the default) or an independent uniform phase
+        jump at every symbol boundary (False).
+    pulse : str
+        Frequency pulse: ``"rect"``, ``"gaussian"`` or ``"raised-cosine"``.
+    bt : float
+        Bandwidth-time product of the Gaussian pulse.
+    transition : float
+        Length of the raised-cosine frequency transition, in symbols.
+    deviation_hz : float or None
+        Half the tone spacing; when given, the tones become midpoint of
+        ``tones_hz`` -/+ ``deviation_hz``.
+    drift_hz : float
+        Linear frequency change of both tones over each burst (centred).
+    channel_filter_hz : float
+        One-sided passband of the I/Q channel filter, Hz (0: none).
+    receiver_audio : bool
+        Audio only: pass signal and noise through the receiver chain.
+    audio_band_hz : tuple of float
+        Band-pass edges of the receiver chain, Hz.
+    audio_order : int
+        Butterworth order of the band-pass (poles per edge).
+    deemphasis_us : float
+        De-emphasis time constant of the receiver chain, microseconds (0: off).
+    tilt_db : float
+        Audio only: gain at the upper tone over the lower one, dB.
     start_offset_samples : float
         Fractional sample at which the first symbol of the first burst begins.
     rate_error_ppm : float
@@ -118,7 +222,18 @@ class SynthParams:
     sample_rate_hz: float = 80000.0
     ebn0_db: float = 10.0
     centre_offset_hz: float = 0.0
-    continuous_phase: bool = False
+    continuous_phase: bool = True
+    pulse: str = "rect"
+    bt: float = 0.5
+    transition: float = 0.5
+    deviation_hz: float | None = None
+    drift_hz: float = 0.0
+    channel_filter_hz: float = 0.0
+    receiver_audio: bool = False
+    audio_band_hz: tuple[float, float] = (300.0, 3000.0)
+    audio_order: int = 4
+    deemphasis_us: float = 750.0
+    tilt_db: float = 0.0
     start_offset_samples: float = 1000.0
     rate_error_ppm: float = 0.0
     n_bursts: int = 1
@@ -164,6 +279,39 @@ class SynthParams:
             if self.symbols_per_burst < need:
                 raise ValueError(f"a burst of {self.symbols_per_burst} symbols cannot hold one frame of "
                                  f"{self.frame_bytes} bytes with its flags (about {need} symbols or more)")
+        if self.pulse not in PULSES:
+            raise ValueError(f"pulse must be one of {', '.join(PULSES)}, got {self.pulse!r}")
+        if not 0.1 <= self.bt <= 10.0:
+            raise ValueError("bt (Gaussian bandwidth-time product) must be between 0.1 and 10")
+        if not 0.0 < self.transition <= 4.0:
+            raise ValueError("transition (raised-cosine length) must be above 0 and at most 4 symbols")
+        if self.deviation_hz is not None and not self.deviation_hz > 0:
+            raise ValueError("deviation_hz must be positive")
+        fs = self.sample_rate_hz
+        if self.channel_filter_hz:
+            if self.real:
+                raise ValueError("the channel filter is for I/Q captures (audio has the receiver chain)")
+            if not 0 < self.channel_filter_hz < 0.4 * fs:
+                raise ValueError("channel_filter_hz must be between 0 and 0.4 times the sample rate")
+        if (self.receiver_audio or self.tilt_db) and not self.real:
+            raise ValueError("the receiver audio chain and the tilt are for audio (real=True)")
+        lo, hi = self.audio_band_hz
+        if self.receiver_audio and not 0 < lo < hi < 0.5 * fs:
+            raise ValueError("audio_band_hz must be 0 < low < high < half the sample rate")
+        if self.deemphasis_us < 0 or self.audio_order < 1:
+            raise ValueError("deemphasis_us must not be negative and audio_order at least 1")
+
+    def steady_tones(self) -> tuple[float, float]:
+        """The tones a long run of one symbol settles to (transmitter offset included)."""
+        mid = 0.5 * (self.tones_hz[0] + self.tones_hz[1]) + self.centre_offset_hz
+        dev = self.deviation() if self.deviation_hz is None else self.deviation_hz
+        return (mid - dev, mid + dev)
+
+    def deviation(self) -> float:
+        """Half the tone spacing, Hz."""
+        if self.deviation_hz is not None:
+            return float(self.deviation_hz)
+        return 0.5 * (self.tones_hz[1] - self.tones_hz[0])
 
 
 @dataclass(frozen=True)
@@ -173,29 +321,275 @@ class SynthResult:
     Attributes
     ----------
     samples : numpy.ndarray
-        complex128 (baseband) or float64 (audio) samples.
+        complex128 (baseband) or float64 (audio) samples: signal plus noise.
     bits : numpy.ndarray
         uint8, all bits sent, bursts concatenated.
     truth : dict
-        JSON-ready description: parameters, noise level and, per burst, the
-        fractional start sample, symbol count, actual tones and symbol rate.
+        JSON-ready description: parameters, steady tones, deviation, pulse,
+        Eb, N0 and Eb/N0 at the capture, and per burst the fractional start
+        sample, symbol count, tones and symbol rate.
+    signal : numpy.ndarray
+        The noiseless signal as it is in ``samples`` (after any filter).
     """
 
     samples: np.ndarray
     bits: np.ndarray
     truth: dict
+    signal: np.ndarray
 
 
-def _noise_sigma(p: SynthParams, amplitude: float) -> float:
-    """Noise standard deviation that gives ``p.ebn0_db`` (see module docstring)."""
-    if not np.isfinite(p.ebn0_db):
+# ---------------------------------------------------------------- pulses
+def gaussian_sigma(bt: float) -> float:
+    """Standard deviation, in symbols, of the Gaussian kernel of bandwidth-time product ``bt`` [1]_."""
+    return float(np.sqrt(np.log(2.0)) / (2.0 * np.pi * bt))
+
+
+def _kernel_halfwidth(pulse: str, bt: float, transition: float) -> float:
+    """Half the support of the kernel, symbols (Gaussian cut at 8.5 sigma, below 1e-16)."""
+    if pulse == "gaussian":
+        return 8.5 * gaussian_sigma(bt)
+    if pulse == "raised-cosine":
+        return 0.5 * transition
+    return 0.0
+
+
+def _w(s: np.ndarray, pulse: str, bt: float, transition: float) -> np.ndarray:
+    """Distribution function of the kernel at ``s`` symbols."""
+    if pulse == "gaussian":
+        return special.ndtr(s / gaussian_sigma(bt))
+    if pulse == "raised-cosine":
+        u = np.clip(s / transition, -0.5, 0.5)
+        return 0.5 + u + np.sin(2 * np.pi * u) / (2 * np.pi)
+    return (s >= 0).astype(float)
+
+
+def _v(s: np.ndarray, pulse: str, bt: float, transition: float) -> np.ndarray:
+    """Integral of the kernel's distribution function from -inf to ``s`` (symbols)."""
+    if pulse == "gaussian":
+        sg = gaussian_sigma(bt)
+        x = s / sg
+        return sg * (x * special.ndtr(x) + np.exp(-0.5 * x * x) / np.sqrt(2 * np.pi))
+    if pulse == "raised-cosine":
+        b = transition
+        u = np.clip(s / b, -0.5, 0.5)
+        inner = b * (0.5 * (u + 0.5) + 0.5 * (u * u - 0.25) - (np.cos(2 * np.pi * u) + 1) / (4 * np.pi**2))
+        return np.where(s > 0.5 * b, s, np.where(s < -0.5 * b, 0.0, inner))
+    return np.maximum(s, 0.0)
+
+
+def frequency_pulse(u, pulse: str = "gaussian", bt: float = 0.5, transition: float = 0.5) -> np.ndarray:
+    """Frequency pulse ``g(u)``, ``u`` in symbols from the symbol centre; ``sum_k g(u - k) = 1``.
+
+    Parameters
+    ----------
+    u : array_like
+        Time from the centre of the symbol, in symbol periods.
+    pulse, bt, transition
+        As in :class:`SynthParams`.
+
+    Returns
+    -------
+    numpy.ndarray
+        ``g(u)``; its integral over ``u`` is 1 (the textbook GMSK pulse [1]_
+        is ``g / (2T)``, of area 1/2).
+    """
+    u = np.asarray(u, dtype=float)
+    return _w(u + 0.5, pulse, bt, transition) - _w(u - 0.5, pulse, bt, transition)
+
+
+def phase_pulse(u, pulse: str = "gaussian", bt: float = 0.5, transition: float = 0.5) -> np.ndarray:
+    """Integral of :func:`frequency_pulse` from ``-inf`` to ``u`` (0 before the pulse, 1 after it)."""
+    u = np.asarray(u, dtype=float)
+    return _v(u + 0.5, pulse, bt, transition) - _v(u - 0.5, pulse, bt, transition)
+
+
+def _shaped_phase(k: np.ndarray, tau: np.ndarray, d: np.ndarray, p: SynthParams) -> np.ndarray:
+    """``sum_i d_i Q(k + tau - i)`` in Hz x symbols: the phase the frequency offsets ``d`` build up.
+
+    ``k`` is the symbol of each time, ``tau`` its position from the centre of that symbol (symbols);
+    symbols outside ``d`` send 0.  Exact (closed form) for any fractional time.
+    """
+    span = int(np.ceil(_kernel_halfwidth(p.pulse, p.bt, p.transition)))
+    pad = np.concatenate((np.zeros(span + 1), d, np.zeros(span + 1)))
+    before = np.concatenate(([0.0], np.cumsum(pad)))       # before[i] = sum of pad[:i]
+    kk = k + span + 1                                         # index of symbol k in pad
+    acc = before[kk - span]                                   # symbols fully elapsed: Q = 1
+    for j in range(-span, span + 1):
+        acc = acc + pad[kk + j] * phase_pulse(tau - j, p.pulse, p.bt, p.transition)
+    return acc
+
+
+def _shaped_frequency(k: np.ndarray, tau: np.ndarray, d: np.ndarray, p: SynthParams) -> np.ndarray:
+    """``sum_i d_i g(k + tau - i)``: the frequency offset from the centre, Hz."""
+    span = int(np.ceil(_kernel_halfwidth(p.pulse, p.bt, p.transition)))
+    pad = np.concatenate((np.zeros(span + 1), d, np.zeros(span + 1)))
+    kk = k + span + 1
+    acc = np.zeros(np.shape(tau))
+    for j in range(-span, span + 1):
+        acc = acc + pad[kk + j] * frequency_pulse(tau - j, p.pulse, p.bt, p.transition)
+    return acc
+
+
+# ---------------------------------------------------------------- filters
+def channel_filter_taps(bandwidth_hz: float, fs: float) -> np.ndarray:
+    """Linear-phase low-pass FIR (odd length): flat to ``bandwidth_hz``, 60 dB down from 1.25x it [2]_."""
+    width = 0.25 * bandwidth_hz
+    numtaps, beta = sps_signal.kaiserord(60.0, width / (0.5 * fs))
+    numtaps |= 1
+    return sps_signal.firwin(numtaps, bandwidth_hz + 0.5 * width, window=("kaiser", beta), fs=fs)
+
+
+def deemphasis_ba(tau_us: float, fs: float, band_hz: tuple[float, float] = (300.0, 3000.0)):
+    """First-order de-emphasis ``(b, a)``: ``|H| = 1/sqrt(1 + (2 pi f tau)^2)`` over the audio band.
+
+    A first-order IIR ``g (1 + b1 z^-1) / (1 - a1 z^-1)`` with unit gain at DC, its pole and zero fitted
+    (least squares in dB on 64 log-spaced frequencies of ``band_hz``, up to 0.45 fs) to the analogue
+    response: within 0.01 dB at 22 kHz sampling and above, 0.2 dB at 8 kHz (the bilinear transform
+    errs by 2 dB at 2 kHz there).
+    """
+    from scipy import optimize
+
+    tau = tau_us * 1e-6
+    f = np.geomspace(band_hz[0], min(band_hz[1], 0.45 * fs), 64)
+    z = np.exp(-2j * np.pi * f / fs)
+    ref = -10 * np.log10(1 + (2 * np.pi * f * tau) ** 2)
+
+    def err(x):
+        a1, b1 = x
+        return 20 * np.log10(np.abs((1 - a1) / (1 + b1) * (1 + b1 * z) / (1 - a1 * z))) - ref
+
+    k = 2 * fs * tau
+    fit = optimize.least_squares(err, [(k - 1) / (k + 1), 0.99], bounds=([0.0, -1.0], [1.0 - 1e-9, 1.0]))
+    a1, b1 = fit.x
+    g = (1 - a1) / (1 + b1)
+    return np.array([g, g * b1]), np.array([1.0, -a1])
+
+
+def receiver_audio_sos(p: SynthParams) -> np.ndarray:
+    """Second-order sections of the receiver chain's band-pass and de-emphasis."""
+    fs = p.sample_rate_hz
+    sos = sps_signal.butter(p.audio_order, p.audio_band_hz, btype="bandpass", output="sos", fs=fs)
+    if p.deemphasis_us > 0:
+        b, a = deemphasis_ba(p.deemphasis_us, fs, p.audio_band_hz)
+        sos = np.vstack((sos, [b[0], b[1], 0.0, 1.0, a[1], 0.0]))
+    return sos
+
+
+def tilt_gain_db(f, p: SynthParams) -> np.ndarray:
+    """The tilt's gain, dB, at audio frequencies ``f`` (0 dB at the tones' midpoint)."""
+    f0, f1 = p.steady_tones()
+    x = np.clip((np.abs(np.asarray(f, dtype=float)) - 0.5 * (f0 + f1)) / (f1 - f0), -0.5, 0.5)
+    return p.tilt_db * x
+
+
+def _chain_power_gain(f: np.ndarray, p: SynthParams) -> np.ndarray:
+    """|H(f)|^2 of everything applied to the capture (1 when nothing is)."""
+    g = np.ones(np.shape(f))
+    if p.receiver_audio:
+        _, h = sps_signal.sosfreqz(receiver_audio_sos(p), worN=np.abs(f), fs=p.sample_rate_hz)
+        g = g * np.abs(h) ** 2
+    if p.tilt_db:
+        g = g * 10.0 ** (tilt_gain_db(f, p) / 10.0)
+    if p.channel_filter_hz:
+        _, h = sps_signal.freqz(channel_filter_taps(p.channel_filter_hz, p.sample_rate_hz), worN=f,
+                                fs=p.sample_rate_hz)
+        g = g * np.abs(h) ** 2
+    return g
+
+
+def _chain_delay(p: SynthParams) -> float:
+    """Group delay of the receiver chain averaged at the steady tones, samples (0 without it)."""
+    if not p.receiver_audio:
         return 0.0
-    sps = p.sample_rate_hz / p.symbol_rate_hz
-    a0, a1 = p.tone_amplitudes
-    eb = 0.5 * (a0**2 + a1**2) * amplitude**2 * sps * (0.5 if p.real else 1.0)
-    n0 = eb / 10.0 ** (p.ebn0_db / 10.0)
-    # complex: N0 = sigma^2 ; real: N0 = 2 sigma^2
-    return float(np.sqrt(n0 / 2.0) if p.real else np.sqrt(n0))
+    fs = p.sample_rate_hz
+    df = 1e-3 * p.symbol_rate_hz
+    out = []
+    for f in p.steady_tones():
+        _, h = sps_signal.sosfreqz(receiver_audio_sos(p), worN=[f - df, f + df], fs=fs)
+        dphi = np.angle(h[1] * np.conj(h[0]))
+        out.append(-dphi / (2 * np.pi * 2 * df) * fs)
+    return float(np.mean(out))
+
+
+def _apply_chain(x: np.ndarray, p: SynthParams) -> np.ndarray:
+    """Pass ``x`` through the channel filter or the receiver audio chain (as configured)."""
+    if p.channel_filter_hz:
+        x = sps_signal.oaconvolve(x, channel_filter_taps(p.channel_filter_hz, p.sample_rate_hz), mode="same")
+    if p.receiver_audio:
+        x = sps_signal.sosfilt(receiver_audio_sos(p), x)
+    if p.tilt_db:
+        spec = np.fft.rfft(x)
+        f = np.fft.rfftfreq(len(x), 1.0 / p.sample_rate_hz)
+        x = np.fft.irfft(spec * 10.0 ** (tilt_gain_db(f, p) / 20.0), n=len(x))
+    return x
+
+
+def _has_chain(p: SynthParams) -> bool:
+    return bool(p.channel_filter_hz or p.receiver_audio or p.tilt_db)
+
+
+# ---------------------------------------------------------------- capture
+def _bursts(p: SynthParams, rng: np.random.Generator, total: int, starts: np.ndarray, sps_tx: float,
+            all_bits: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Unit-amplitude signal of all bursts (no burst gains) and the per-sample burst gain."""
+    fs = p.sample_rate_hz
+    n_sym = p.symbols_per_burst
+    burst_len = n_sym * sps_tx
+    f0, f1 = p.steady_tones()
+    fc, dev = 0.5 * (f0 + f1), 0.5 * (f1 - f0)
+    tones = np.array([f0, f1])
+    amps = np.asarray(p.tone_amplitudes, dtype=float)
+    gains = np.asarray(p.burst_gains_db if p.burst_gains_db else (0.0,), dtype=float)
+    out = np.zeros(total, dtype=float if p.real else complex)
+    gain = np.ones(total)
+    for b, t0 in enumerate(starts):
+        bits = all_bits[b * n_sym:(b + 1) * n_sym]
+        first = int(np.ceil(t0))
+        last = int(np.ceil(t0 + burst_len))  # exclusive
+        nn = np.arange(first, last, dtype=float)
+        k = np.minimum(np.floor((nn - t0) / sps_tx).astype(np.int64), n_sym - 1)
+        tau = (nn - t0) / sps_tx - k - 0.5
+        d = np.where(bits == 1, dev, -dev)
+        # 2 pi / fs x integral of the frequency from t0 (module docstring)
+        phase = 2 * np.pi / fs * (fc * (nn - t0) + sps_tx * _shaped_phase(k, tau, d, p))
+        if p.drift_hz:
+            u = nn - t0
+            phase += 2 * np.pi / fs * p.drift_hz * (0.5 * u * u / burst_len - 0.5 * u)
+        if p.continuous_phase:
+            phase += rng.uniform(0, 2 * np.pi)
+        else:
+            # phase phi_k + 2 pi f_k t_k / fs at the start of symbol k: an independent uniform jump at every
+            # boundary (the original random-phase model for rectangular keying)
+            phi = rng.uniform(0, 2 * np.pi, n_sym)
+            ks = np.arange(n_sym)
+            tk = t0 + ks * sps_tx
+            at_tk = 2 * np.pi / fs * (fc * (tk - t0) + sps_tx * _shaped_phase(ks, np.full(n_sym, -0.5), d, p))
+            if p.drift_hz:
+                u = tk - t0
+                at_tk += 2 * np.pi / fs * p.drift_hz * (0.5 * u * u / burst_len - 0.5 * u)
+            jump = phi + 2 * np.pi * tones[bits] * tk / fs - at_tk
+            phase += jump[k]
+        env = amps[bits][k]
+        if p.symbol_ramp > 0:
+            tk = t0 + k * sps_tx
+            dist = np.minimum(nn - tk, tk + sps_tx - nn)
+            env = env * np.sin(0.5 * np.pi * np.clip(dist / (p.symbol_ramp * sps_tx), 0.0, 1.0)) ** 2
+        if p.ramp_symbols > 0:
+            ramp = p.ramp_symbols * sps_tx
+            uu = np.clip(np.minimum(nn - t0, t0 + burst_len - nn) / ramp, 0.0, 1.0)
+            env = env * np.sin(0.5 * np.pi * uu) ** 2
+        out[first:last] = env * (np.cos(phase) if p.real else np.exp(1j * phase))
+        gain[first:last] = 10.0 ** (gains[b % len(gains)] / 20.0)
+    return out, gain
+
+
+def _n0_per_sigma2(p: SynthParams) -> float:
+    """N0 at the capture over the variance of the white noise added (module docstring)."""
+    if not p.real:
+        return 1.0
+    if not (p.receiver_audio or p.tilt_db):
+        return 2.0
+    return 2.0 * float(np.mean(_chain_power_gain(np.asarray(p.steady_tones()), p)))
 
 
 def _framed_tones(p: SynthParams, rng: np.random.Generator) -> tuple[np.ndarray, list[list[dict]]]:
@@ -221,7 +615,7 @@ def _framed_tones(p: SynthParams, rng: np.random.Generator) -> tuple[np.ndarray,
 
 
 def synthesize(p: SynthParams) -> SynthResult:
-    """Generate a capture of FSK bursts in white Gaussian noise.
+    """Generate a capture of FSK bursts in Gaussian noise (module docstring).
 
     Parameters
     ----------
@@ -231,10 +625,10 @@ def synthesize(p: SynthParams) -> SynthResult:
     Returns
     -------
     SynthResult
-        Samples, bits and truth.  The signal amplitude ``A`` is chosen so that
-        the stronger tone peaks at 0.25 of full scale, or lower when needed to
-        keep signal plus five noise standard deviations below 0.9 of full
-        scale (head room for integer formats).
+        Samples, bits, truth and the noiseless signal.  The signal is scaled so
+        that its peak is 0.25 of full scale, or lower when needed to keep the
+        peak plus five noise standard deviations (per component, at the
+        capture) below 0.9 of full scale (head room for integer formats).
     """
     rng = np.random.default_rng(p.seed)
     fs = p.sample_rate_hz
@@ -243,84 +637,85 @@ def synthesize(p: SynthParams) -> SynthResult:
     burst_len = n_sym * sps_tx
     starts = p.start_offset_samples + np.arange(p.n_bursts) * (burst_len + p.gap_samples)
     total = int(np.ceil(starts[-1] + burst_len)) + int(p.tail_samples)
-
-    # Peak of the stronger tone at 0.25 of full scale, lowered when the noise is
-    # strong so that signal + 5 sigma of noise per component stays below 0.9
-    # (head room for integer formats).
-    per_unit = _noise_sigma(p, 1.0) / (1.0 if p.real else np.sqrt(2.0))
-    amplitude = min(0.25 / max(p.tone_amplitudes), 0.9 / (max(p.tone_amplitudes) + 5.0 * per_unit))
-    tones = np.asarray(p.tones_hz, dtype=float) + p.centre_offset_hz
-    amps = np.asarray(p.tone_amplitudes, dtype=float) * amplitude
-    gains = np.asarray(p.burst_gains_db if p.burst_gains_db else (0.0,), dtype=float)
-
     framed = None
     if p.framing == "hdlc":
         all_bits, framed = _framed_tones(p, rng)
     else:
         all_bits = prbs.prbs_sequence(p.pattern, n_sym * p.n_bursts)
-    samples = np.zeros(total, dtype=float if p.real else complex)
-    n = np.arange(total, dtype=float)
-    bursts = []
-    for b, t0 in enumerate(starts):
-        bits = all_bits[b * n_sym:(b + 1) * n_sym]
-        first = int(np.ceil(t0))
-        last = int(np.ceil(t0 + burst_len))  # exclusive
-        nn = n[first:last]
-        k = np.minimum(np.floor((nn - t0) / sps_tx).astype(np.int64), n_sym - 1)
-        freq = tones[bits]                      # per symbol
-        # phase at the start of each symbol
-        if p.continuous_phase:
-            incr = 2 * np.pi * freq * sps_tx / fs
-            phi0 = np.concatenate(([rng.uniform(0, 2 * np.pi)], np.cumsum(incr)[:-1]))
-            # phase(t) = phi0_k + 2 pi f_k (t - t_k)/fs  (continuous at boundaries)
-            tk = t0 + k * sps_tx
-            phase = phi0[k] + 2 * np.pi * freq[k] * (nn - tk) / fs
-        else:
-            phi = rng.uniform(0, 2 * np.pi, n_sym)
-            phase = phi[k] + 2 * np.pi * freq[k] * nn / fs
-        env = amps[bits][k] * 10.0 ** (gains[b % len(gains)] / 20.0)
-        if p.symbol_ramp > 0:
-            tk = t0 + k * sps_tx
-            d = np.minimum(nn - tk, tk + sps_tx - nn)
-            env = env * np.sin(0.5 * np.pi * np.clip(d / (p.symbol_ramp * sps_tx), 0.0, 1.0)) ** 2
-        if p.ramp_symbols > 0:
-            ramp = p.ramp_symbols * sps_tx
-            u = np.clip(np.minimum(nn - t0, t0 + burst_len - nn) / ramp, 0.0, 1.0)
-            env = env * np.sin(0.5 * np.pi * u) ** 2
-        samples[first:last] = env * (np.cos(phase) if p.real else np.exp(1j * phase))
-        bursts.append({
-            "start_sample": float(t0),
-            "stop_sample": float(t0 + burst_len),
-            "n_symbols": int(n_sym),
-            "tones_hz": [float(tones[0]), float(tones[1])],
-            "symbol_rate_hz": float(fs / sps_tx),
-            "gain_db": float(gains[b % len(gains)]),
-        })
-        if framed is not None:
-            bursts[-1]["frames"] = framed[b]
 
-    sigma = _noise_sigma(p, amplitude)
+    unit, gain = _bursts(p, rng, total, starts, sps_tx, all_bits)
+    has_gains = bool(np.any(gain != 1.0))
+    if _has_chain(p):
+        ref = _apply_chain(unit, p)
+        clean = _apply_chain(unit * gain, p) if has_gains else ref
+    else:
+        ref = unit
+        clean = unit * gain if has_gains else unit
+    eb_unit = float(np.sum(np.abs(ref) ** 2)) / all_bits.size
+    peak_unit = float(np.max(np.abs(ref)))
+    n0_ratio = _n0_per_sigma2(p)
+    if np.isfinite(p.ebn0_db):
+        sigma_unit = np.sqrt(eb_unit / 10.0 ** (p.ebn0_db / 10.0) / n0_ratio)
+    else:
+        sigma_unit = 0.0
+    # noise per component at the capture, for the head room
+    f_grid = np.linspace(-0.5 * fs, 0.5 * fs, 2048, endpoint=False)
+    noise_gain = float(np.mean(_chain_power_gain(f_grid, p))) if _has_chain(p) else 1.0
+    per_unit = sigma_unit * np.sqrt(noise_gain) / (1.0 if p.real else np.sqrt(2.0))
+    amplitude = float(min(0.25 / peak_unit, 0.9 / (peak_unit + 5.0 * per_unit)))
+    sigma = float(amplitude * sigma_unit)
+    clean = amplitude * clean
+
+    samples = clean.copy()
     if sigma > 0:
         scale = sigma
         if p.noise_drift_db:
             db = p.noise_drift_db * (np.arange(total) / max(total - 1, 1) - 0.5)
             scale = sigma * 10.0 ** (db / 20.0)
         if p.real:
-            samples += scale * rng.standard_normal(total)
+            w = scale * rng.standard_normal(total)
         else:
-            samples += scale / np.sqrt(2) * (rng.standard_normal(total) + 1j * rng.standard_normal(total))
+            w = scale / np.sqrt(2) * (rng.standard_normal(total) + 1j * rng.standard_normal(total))
+        samples += _apply_chain(w, p) if _has_chain(p) else w
+
+    eb = eb_unit * amplitude**2
+    n0 = n0_ratio * sigma**2
+    f0, f1 = p.steady_tones()
+    delay = _chain_delay(p)
+    gains = np.asarray(p.burst_gains_db if p.burst_gains_db else (0.0,), dtype=float)
+    bursts = [{
+        "start_sample": float(t0 + delay),
+        "stop_sample": float(t0 + burst_len + delay),
+        "n_symbols": int(n_sym),
+        "tones_hz": [float(f0), float(f1)],
+        "symbol_rate_hz": float(fs / sps_tx),
+        "gain_db": float(gains[b % len(gains)]),
+    } for b, t0 in enumerate(starts)]
+    if framed is not None:
+        for b, listed in zip(bursts, framed):
+            b["frames"] = listed
 
     params = asdict(p)
-    params["tones_hz"] = list(p.tones_hz)
-    params["tone_amplitudes"] = list(p.tone_amplitudes)
-    params["burst_gains_db"] = list(p.burst_gains_db)
+    for key in ("tones_hz", "tone_amplitudes", "burst_gains_db", "audio_band_hz"):
+        params[key] = list(getattr(p, key))
     if not np.isfinite(p.ebn0_db):
         params["ebn0_db"] = None
     truth = {
         "params": params,
+        "tones_hz": [float(f0), float(f1)],
+        "deviation_hz": float(0.5 * (f1 - f0)),
+        "modulation_index": float((f1 - f0) / p.symbol_rate_hz),
+        "continuous_phase": bool(p.continuous_phase),
+        "pulse": p.pulse,
+        "bt": float(p.bt) if p.pulse == "gaussian" else None,
+        "transition_symbols": float(p.transition) if p.pulse == "raised-cosine" else None,
+        "drift_hz": float(p.drift_hz),
+        "ebn0_db": float(10 * np.log10(eb / n0)) if n0 > 0 else None,
+        "eb": eb,
+        "n0": n0,
         "noise_sigma": sigma,
         "signal_amplitude": amplitude,
-        "n0": (2 * sigma**2 if p.real else sigma**2),
+        "chain_delay_samples": delay,
         "bursts": bursts,
     }
-    return SynthResult(samples=samples, bits=all_bits, truth=truth)
+    return SynthResult(samples=samples, bits=all_bits, truth=truth, signal=clean)

@@ -70,7 +70,8 @@ def main() -> None:
         tone_err, rate_err, start_err, eb_err = [], [], [], []
         found = 0
         for s in range(args.seeds):
-            p = SynthParams(ebn0_db=eb, symbols_per_burst=args.symbols, centre_offset_hz=0.1 * RS,
+            p = SynthParams(continuous_phase=False,
+                            ebn0_db=eb, symbols_per_burst=args.symbols, centre_offset_hz=0.1 * RS,
                             start_offset_samples=1500.0 + 0.37 * s, seed=1000 + s)
             res = synthesize(p)
             try:

@@ -17,7 +17,7 @@ def make_capture(tmp_path):
     def make(name="cap", centre_hz=433.92e6, **kw):
         kw.setdefault("symbols_per_burst", 2000)
         kw.setdefault("ebn0_db", 12.0)
-        res = synthesize(SynthParams(**kw))
+        res = synthesize(SynthParams(**{"continuous_phase": False, **kw}))
         return writers.write_sigmf(tmp_path / name, res.samples, 80e3, centre_hz=centre_hz, truth=res.truth)
 
     return make

@@ -34,7 +34,7 @@ def _samples(**kw):
     kw.setdefault("ebn0_db", 14.0)
     kw.setdefault("start_offset_samples", 2000.0)
     kw.setdefault("tail_samples", 2000)
-    return synthesize(SynthParams(**kw)).samples
+    return synthesize(SynthParams(**{"continuous_phase": False, **kw})).samples
 
 
 def _run(args, out):
@@ -251,7 +251,8 @@ def test_impossible_hints(tmp_path, hints, needle):
 
 
 def test_audio_tones_below_zero_are_outside_the_band(tmp_path):
-    x = synthesize(SynthParams(tones_hz=(1200.0, 2200.0), symbol_rate_hz=1200.0, sample_rate_hz=48000.0,
+    x = synthesize(SynthParams(continuous_phase=False,
+                               tones_hz=(1200.0, 2200.0), symbol_rate_hz=1200.0, sample_rate_hz=48000.0,
                                symbols_per_burst=100, real=True)).samples
     p = writers.write_audio(tmp_path / "a.wav", x, 48000)
     r = _run([p, "--tones", "-1200,2200", "--baud", "1200"], tmp_path / "o")

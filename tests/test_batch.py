@@ -28,7 +28,7 @@ NUMBERS = ("ebn0_db", "ber", "errors", "bits", "n_bursts")
 def captures(tmp_path_factory):
     d = tmp_path_factory.mktemp("batch")
     for i, ebn0 in enumerate((9.0, 11.0, 14.0)):
-        res = synthesize(SynthParams(symbols_per_burst=700, ebn0_db=ebn0, seed=10 + i))
+        res = synthesize(SynthParams(continuous_phase=False, symbols_per_burst=700, ebn0_db=ebn0, seed=10 + i))
         writers.write_sigmf(d / f"cap{i}", res.samples, 80e3, truth=res.truth)
     (d / "broken.sigmf-meta").write_text('{"global": ')
     return d

@@ -49,7 +49,8 @@ def _crb_tone_sd(ebn0_db: float, symbols_per_tone: int) -> float:
 ])
 def test_blind_tones_rate_start(seed, case):
     rs, fs, ebn0 = 5000.0, 80000.0, 12.0
-    params = SynthParams(**{**dict(ebn0_db=ebn0, symbols_per_burst=4000, seed=seed, start_offset_samples=3000.4),
+    params = SynthParams(**{**dict(continuous_phase=False,
+                                   ebn0_db=ebn0, symbols_per_burst=4000, seed=seed, start_offset_samples=3000.4),
                             **case})
     res, out = _blind(params)
     assert len(out.bursts) == 1
@@ -74,7 +75,7 @@ def test_blind_tones_rate_start(seed, case):
 @pytest.mark.parametrize("seed", [41, 42, 43, 44])
 def test_blind_rate_at_8db_1000_symbols(seed):
     """Symbol rate to 100 ppm at the issue's lower corner (8 dB, 1000 symbols)."""
-    params = SynthParams(ebn0_db=8.0, symbols_per_burst=1000, seed=seed)
+    params = SynthParams(continuous_phase=False, ebn0_db=8.0, symbols_per_burst=1000, seed=seed)
     res, out = _blind(params)
     b = out.bursts[0]
     assert abs(b.symbol_rate_hz / res.truth["bursts"][0]["symbol_rate_hz"] - 1) < 100e-6
@@ -85,7 +86,7 @@ def test_blind_rate_at_8db_1000_symbols(seed):
 
 def test_two_bursts_rate_error_and_ramps():
     """Two bursts, 150 ppm fast clock, half-symbol power ramps, different power (issue 3)."""
-    params = SynthParams(ebn0_db=12.0, symbols_per_burst=2500, n_bursts=2, rate_error_ppm=150.0,
+    params = SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2500, n_bursts=2, rate_error_ppm=150.0,
                          ramp_symbols=0.5, burst_gains_db=(0.0, -3.0), gap_samples=7000.0, seed=51,
                          start_offset_samples=2222.2)
     res, out = _blind(params)
@@ -104,7 +105,7 @@ def test_two_bursts_rate_error_and_ramps():
 
 
 def test_long_burst_with_1000_ppm_drift_has_no_slips():
-    params = SynthParams(ebn0_db=9.0, symbols_per_burst=12000, rate_error_ppm=-1000.0, seed=61)
+    params = SynthParams(continuous_phase=False, ebn0_db=9.0, symbols_per_burst=12000, rate_error_ppm=-1000.0, seed=61)
     res, out = _blind(params)
     b = out.bursts[0]
     assert b.ber.slips == 0
@@ -144,7 +145,7 @@ def test_receiver_audio_bell_202(tmp_path, container):
 
 
 def test_stereo_iq_wav_blind(tmp_path):
-    params = SynthParams(ebn0_db=12.0, symbols_per_burst=3000, centre_offset_hz=700.0, seed=81)
+    params = SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=3000, centre_offset_hz=700.0, seed=81)
     res = synthesize(params)
     path = writers.write_audio(tmp_path / "iq.wav", res.samples, 80000, truth=res.truth)
     out = pipeline.analyze(path)
@@ -156,7 +157,8 @@ def test_stereo_iq_wav_blind(tmp_path):
 @pytest.mark.parametrize("hints", [True, False])
 def test_noise_floor_drift_and_unequal_bursts(hints):
     """Noise power rising 6 dB along the capture; bursts 4 dB apart (issue 3)."""
-    params = SynthParams(ebn0_db=13.0, symbols_per_burst=800, n_bursts=4, gap_samples=20000.0, seed=7,
+    params = SynthParams(continuous_phase=False,
+                         ebn0_db=13.0, symbols_per_burst=800, n_bursts=4, gap_samples=20000.0, seed=7,
                          noise_drift_db=6.0, burst_gains_db=(0.0, -2.0, 2.0, 0.0))
     res = synthesize(params)
     opts = pipeline.AnalysisOptions((-2500.0, 2500.0), 5000.0) if hints else pipeline.AnalysisOptions(None, None)
@@ -191,7 +193,8 @@ def test_band_limited_noise_burst_is_not_taken_for_a_burst():
     """A stretch of noise confined to the signal band raises the band power like a burst, but
     carries no symbol-rate line: it is reported as a warning, not analysed.  Reference: the two
     bursts the generator placed (its truth); the noise stretch lies in the gap between them."""
-    params = SynthParams(n_bursts=2, symbols_per_burst=800, gap_samples=30000.0, ebn0_db=12.0, seed=5)
+    params = SynthParams(continuous_phase=False,
+                         n_bursts=2, symbols_per_burst=800, gap_samples=30000.0, ebn0_db=12.0, seed=5)
     res = synthesize(params)
     x = res.samples.copy()
     rng = np.random.default_rng(1)

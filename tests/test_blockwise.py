@@ -37,7 +37,8 @@ def _numbers(obj, path=""):
 def dc_capture(tmp_path_factory):
     """Three bursts, a DC offset, 16 samples per symbol: every burst straddles many 4096-sample blocks."""
     d = tmp_path_factory.mktemp("blk")
-    res = synthesize(SynthParams(n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
+    res = synthesize(SynthParams(continuous_phase=False,
+                                 n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
                                  start_offset_samples=3000.5, seed=7))
     x = res.samples + (0.01 - 0.004j)
     return writers.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
@@ -178,7 +179,8 @@ def test_worker_processes_give_the_same_report(tmp_path):
     import subprocess
     import sys
 
-    res = synthesize(SynthParams(n_bursts=6, symbols_per_burst=300, gap_samples=9000.0, ebn0_db=10.0, seed=3))
+    res = synthesize(SynthParams(continuous_phase=False,
+                                 n_bursts=6, symbols_per_burst=300, gap_samples=9000.0, ebn0_db=10.0, seed=3))
     meta = writers.write_sigmf(tmp_path / "six", res.samples, 80e3, truth=res.truth)
     out = tmp_path / "check.json"
     subprocess.run([sys.executable, "-c", _WORKER_CHECK, str(meta), str(out)], check=True, timeout=300)

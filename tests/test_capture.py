@@ -26,7 +26,7 @@ F32 = np.finfo(np.float32).eps   # one float32 rounding step (relative)
 def _synth(**kw):
     kw.setdefault("symbols_per_burst", 300)
     kw.setdefault("ebn0_db", 20.0)
-    return synthesize(SynthParams(**kw))
+    return synthesize(SynthParams(**{"continuous_phase": False, **kw}))
 
 
 def _write_meta(path, global_extra: dict, captures=None):

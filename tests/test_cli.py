@@ -26,7 +26,7 @@ def _sha(p):
 @pytest.fixture(scope="module")
 def capture(tmp_path_factory):
     d = tmp_path_factory.mktemp("cap")
-    r = runner.invoke(app, ["synth", str(d / "link.sigmf-meta"), "--ebn0", "9", "--symbols", "2000",
+    r = runner.invoke(app, ["synth", str(d / "link.sigmf-meta"), "--random-phase", "--ebn0", "9", "--symbols", "2000",
                             "--offset", "250", "--seed", "4"])
     assert r.exit_code == 0, r.output
     return d / "link.sigmf-meta"

@@ -32,7 +32,7 @@ def _run(params, x=None, tones=None):
 def test_clean_captures_are_not_flagged():
     flagged = 0
     for seed in range(10):
-        out = _run(SynthParams(ebn0_db=10.0, symbols_per_burst=2000, seed=300 + seed))
+        out = _run(SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=2000, seed=300 + seed))
         b = out.bursts[0]
         flagged += any(c.flagged for c in b.checks)
     # Family-wise level 1% (Bonferroni): P(>= 2 flagged of 10) < 0.5% (scipy.stats.binom(10, 0.01).sf(1)).
@@ -44,7 +44,7 @@ def test_interferer_is_flagged():
         n = np.arange(len(x))
         return x + 0.08 * np.exp(2j * np.pi * 2300.0 * n / FS)   # a carrier 200 Hz from the upper tone
 
-    out = _run(SynthParams(ebn0_db=12.0, symbols_per_burst=2000, seed=5), x=add_cw)
+    out = _run(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, seed=5), x=add_cw)
     names = {c.name for c in out.bursts[0].checks if c.flagged}
     # The idle-branch law (Rayleigh, scipy.stats.rayleigh) must be rejected at the 1% level.
     assert "Rayleigh fit, tone not sent" in names
@@ -58,13 +58,14 @@ def test_impulsive_noise_is_flagged():
         y[idx] += 3.0 * np.exp(2j * np.pi * rng.uniform(size=idx.size))
         return y
 
-    out = _run(SynthParams(ebn0_db=12.0, symbols_per_burst=2000, seed=6), x=impulses)
+    out = _run(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, seed=6), x=impulses)
     assert any(c.flagged for c in out.bursts[0].checks)
 
 
 def test_tone_imbalance_3db():
     a1 = 10 ** (-3 / 20)
-    out = _run(SynthParams(ebn0_db=10.0, symbols_per_burst=3000, tone_amplitudes=(1.0, a1), seed=8))
+    out = _run(SynthParams(continuous_phase=False,
+                           ebn0_db=10.0, symbols_per_burst=3000, tone_amplitudes=(1.0, a1), seed=8))
     b = out.bursts[0]
     # Reference: the generator's amplitude ratio, 20 log10(a1) = -3 dB; tolerance 0.5 dB (issue 4).
     assert abs(b.stats.imbalance_db - (-3.0)) < 0.5
@@ -83,7 +84,8 @@ def test_tone_imbalance_3db():
 @pytest.mark.parametrize("spacing", [0.8])
 def test_tone_correlation_non_orthogonal(spacing):
     df = spacing * RS
-    out = _run(SynthParams(ebn0_db=12.0, symbols_per_burst=3000, tones_hz=(-df / 2, df / 2), seed=10))
+    out = _run(SynthParams(continuous_phase=False,
+                           ebn0_db=12.0, symbols_per_burst=3000, tones_hz=(-df / 2, df / 2), seed=10))
     b = out.bursts[0]
     # Reference: |sinc(df T)| for rectangular tones (common practice; numpy.sinc); tolerance 0.03.
     assert abs(abs(b.rho) - abs(np.sinc(spacing))) < 0.03
@@ -129,7 +131,7 @@ def test_likelihood_ber_monte_carlo():
 # --------------------------------------------------------------------------- template mismatch
 def test_nominal_template_loss_is_sinc_squared():
     off = 0.15 * RS
-    out = _run(SynthParams(ebn0_db=12.0, symbols_per_burst=2000, centre_offset_hz=off, seed=12),
+    out = _run(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, centre_offset_hz=off, seed=12),
                tones=(-2500.0, 2500.0))
     b = out.bursts[0]
     loss = json_report.nominal_template_loss_db(b.tones_hz, (-2500.0, 2500.0), FS, b.grid.window)
@@ -145,7 +147,7 @@ def _ramp_pulse(t, a):
 
 @pytest.mark.parametrize("ramp", [0.0, 0.25])
 def test_measured_pulse_loss(ramp):
-    p = SynthParams(ebn0_db=20.0, symbols_per_burst=2000, symbol_ramp=ramp, seed=21)
+    p = SynthParams(continuous_phase=False, ebn0_db=20.0, symbols_per_burst=2000, symbol_ramp=ramp, seed=21)
     res = synthesize(p)
     tr = res.truth["bursts"][0]
     sps = FS / RS
@@ -184,7 +186,7 @@ def test_measured_pulse_loss(ramp):
 
 
 def test_shaped_pulse_is_flagged():
-    out = _run(SynthParams(ebn0_db=14.0, symbols_per_burst=2000, symbol_ramp=0.25, seed=22))
+    out = _run(SynthParams(continuous_phase=False, ebn0_db=14.0, symbols_per_burst=2000, symbol_ramp=0.25, seed=22))
     names = {c.name for c in out.bursts[0].checks if c.flagged}
     # the idle branch holds the shaped pulse's leakage: rejected at the 1% level (scipy.stats.norm)
     assert "idle-branch power" in names
@@ -215,7 +217,8 @@ def test_noise_correlation_of_white_and_coloured_noise():
 @pytest.mark.parametrize("ebn0_db", [5.0, 6.5, 8.0])
 def test_blind_ber_matches_counted(ebn0_db):
     n_sym = 20000
-    out = _run(SynthParams(ebn0_db=ebn0_db, symbols_per_burst=n_sym, seed=40 + int(ebn0_db * 2)))
+    out = _run(SynthParams(continuous_phase=False,
+                           ebn0_db=ebn0_db, symbols_per_burst=n_sym, seed=40 + int(ebn0_db * 2)))
     b = out.bursts[0]
     blind, _ = b.blind_ber
     # Tolerance x1.5.  The counted BER is binomial: at the smallest expected count here
@@ -232,7 +235,7 @@ def test_blind_ber_matches_counted(ebn0_db):
 def test_blind_ber_matches_counted_low_ber(ebn0_db, n_sym):
     """The low end of the range: BER ~1e-3 (handbook: 10.9 dB for 1e-3, standard textbook curves,
     from memory) and ~2e-4 at 12 dB (about 55 errors in 300k bits)."""
-    out = _run(SynthParams(ebn0_db=ebn0_db, symbols_per_burst=n_sym, seed=70 + int(ebn0_db)))
+    out = _run(SynthParams(continuous_phase=False, ebn0_db=ebn0_db, symbols_per_burst=n_sym, seed=70 + int(ebn0_db)))
     b = out.bursts[0]
     blind, _ = b.blind_ber
     pb = 0.5 * np.exp(-10 ** (ebn0_db / 10) / 2)       # Proakis & Salehi, from memory

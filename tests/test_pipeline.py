@@ -41,7 +41,7 @@ def _analyse(tmp_path, params: SynthParams, name="cap", datatype="cf32_le", **kw
 @pytest.mark.parametrize("ebn0_db", [4.0, 8.0, 12.0])
 @pytest.mark.parametrize("seed", [11, 12, 13])
 def test_ebn0_and_error_count_against_theory(tmp_path, ebn0_db, seed):
-    params = SynthParams(ebn0_db=ebn0_db, symbols_per_burst=3000, centre_offset_hz=0.1 * RS,
+    params = SynthParams(continuous_phase=False, ebn0_db=ebn0_db, symbols_per_burst=3000, centre_offset_hz=0.1 * RS,
                          start_offset_samples=1234.37, seed=seed)
     _, out = _analyse(tmp_path, params)
     s = out.summary
@@ -60,7 +60,7 @@ def test_ebn0_and_error_count_against_theory(tmp_path, ebn0_db, seed):
 @pytest.mark.parametrize("seed", [21, 22, 23, 24])
 def test_tones_symbol_rate_and_start(tmp_path, seed):
     offset = 0.1 * RS
-    params = SynthParams(ebn0_db=12.0, symbols_per_burst=3000, centre_offset_hz=offset,
+    params = SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=3000, centre_offset_hz=offset,
                          start_offset_samples=777.25, seed=seed)
     res, out = _analyse(tmp_path, params)
     b = out.bursts[0]
@@ -85,7 +85,7 @@ def test_continuous_phase_and_ci16(tmp_path):
 
 
 def test_envelopes_follow_rice_and_rayleigh(tmp_path):
-    params = SynthParams(ebn0_db=10.0, symbols_per_burst=3000, seed=7)
+    params = SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=3000, seed=7)
     _, out = _analyse(tmp_path, params)
     b = out.bursts[0]
     r = np.abs(b.outputs.z)
@@ -104,7 +104,8 @@ def test_ebn0_interval_coverage(tmp_path):
     """The 95% interval covers the set Eb/N0 in most of 20 captures (binomial: >= 15 of 20)."""
     hits = 0
     for seed in range(20):
-        params = SynthParams(ebn0_db=8.0, symbols_per_burst=1500, seed=100 + seed, start_offset_samples=400.0)
+        params = SynthParams(continuous_phase=False,
+                             ebn0_db=8.0, symbols_per_burst=1500, seed=100 + seed, start_offset_samples=400.0)
         res = synthesize(params)
 
         out = pipeline.analyze_capture(ArrayCapture(res.samples, FS, path=f"mem{seed}"),
@@ -119,7 +120,7 @@ def test_ebn0_interval_coverage(tmp_path):
 def test_report_validates_against_schema(tmp_path):
     import jsonschema
 
-    params = SynthParams(ebn0_db=9.0, symbols_per_burst=2000, n_bursts=2, seed=3)
+    params = SynthParams(continuous_phase=False, ebn0_db=9.0, symbols_per_burst=2000, n_bursts=2, seed=3)
     _, out = _analyse(tmp_path, params)
     rep = json.loads(json_report.dumps(json_report.build_report(out)))
     schema = json.loads(json_report.SCHEMA_PATH.read_text())
@@ -133,7 +134,7 @@ def test_report_validates_against_schema(tmp_path):
 
 @pytest.mark.parametrize("kind", ["wav", "flac"])
 def test_stereo_iq_audio_files(tmp_path, kind):
-    params = SynthParams(ebn0_db=10.0, symbols_per_burst=2000, seed=9)
+    params = SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=2000, seed=9)
     res = synthesize(params)
     path = writers.write_audio(tmp_path / f"cap.{kind}", res.samples, int(FS), truth=res.truth)
     assert open_capture(path).kind == "iq"
@@ -147,7 +148,7 @@ def test_analysis_leaves_an_in_memory_capture_unchanged():
     (sha256 before and after), DC offset present (the DC removal must not work in place)."""
     import hashlib
 
-    params = SynthParams(ebn0_db=12.0, symbols_per_burst=1500, seed=17)
+    params = SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=1500, seed=17)
     x = (synthesize(params).samples + (0.01 - 0.02j)).astype(np.complex64)
 
     cap = ArrayCapture(x, FS)
@@ -171,7 +172,8 @@ def test_noise_floor_between_strong_bursts(seed):
     quantile from scipy.stats.gamma is 0.24 dB.  The out-of-band estimate alone read 1.3 dB
     high on these captures.
     """
-    res = synthesize(SynthParams(ebn0_db=20.0, symbols_per_burst=1000, n_bursts=3, gap_samples=15000.0,
+    res = synthesize(SynthParams(continuous_phase=False,
+                                 ebn0_db=20.0, symbols_per_burst=1000, n_bursts=3, gap_samples=15000.0,
                                  seed=seed))
     out = pipeline.analyze_capture(ArrayCapture(res.samples, FS), pipeline.AnalysisOptions((-2500.0, 2500.0), RS))
     assert len(out.bursts) == 3

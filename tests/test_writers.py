@@ -20,7 +20,7 @@ from analyzer.synth import SynthParams, synthesize
 
 def _synth(**kw):
     kw.setdefault("symbols_per_burst", 200)
-    return synthesize(SynthParams(**kw))
+    return synthesize(SynthParams(**{"continuous_phase": False, **kw}))
 
 
 def _no_temp_files(folder) -> int:
