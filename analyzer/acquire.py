@@ -439,8 +439,8 @@ def floor_track(trace: PowerTrace, global_floor: float) -> np.ndarray:
     return np.repeat(median_filter(means, size=w, mode="nearest"), m)[:ndf.size]
 
 
-def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int = 8
-                    ) -> list[tuple[int, int]]:
+def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int = 8,
+                    branch_energies: np.ndarray | None = None) -> list[tuple[int, int]]:
     """Split a run of candidate symbols into bursts and refine each burst's edges.
 
     The moving average is chosen from the contrast between signal and noise
@@ -457,12 +457,18 @@ def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int =
         Expected energy of a noise-only symbol (``2 sigma^2``).
     min_symbols : int
         Shortest burst kept.
+    branch_energies : numpy.ndarray, optional
+        ``(|z0|^2, |z1|^2)`` per symbol, shape (n, 2): a dip is a gap between
+        bursts only if neither branch holds more than noise there (see
+        :func:`_noise_like`), so a run of the weaker of two unequal tones
+        does not split a burst.
 
     Returns
     -------
     list of (first, stop)
         Symbol index ranges, one per burst.
     """
+    pe = energies if branch_energies is None else np.asarray(branch_energies, float)
     e = np.asarray(energies, dtype=float)
     if e.size == 0:
         return []
@@ -483,7 +489,9 @@ def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int =
     edges = np.flatnonzero(np.diff(np.concatenate(([0], above.astype(np.int8), [0])))).reshape(-1, 2)
     runs: list[list[int]] = []
     for a, b in edges:
-        if runs and a - runs[-1][1] < k:
+        # runs are joined across a dip that is short or does not look like noise
+        # (a run of the weaker tone of an unequal pair, or of shaped transitions)
+        if runs and (a - runs[-1][1] < max(k, MIN_GAP_SYMBOLS) or not _noise_like(pe[runs[-1][1]:a], n)):
             runs[-1][1] = b
         else:
             runs.append([int(a), int(b)])
@@ -491,10 +499,11 @@ def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int =
     for a, b in runs:
         lo = max(0, a - k)
         hi = min(e.size, b + k)
-        # the edge threshold sits a quarter of the way up: the energy of a
-        # burst symbol spreads more than that of a noise symbol
-        f, st = trim_to_burst(e[lo:hi], n, n + 0.5 * g2)
-        for a2, b2 in _split_at_gaps(e[lo + f:lo + st], n, g2):
+        # the edge threshold sits halfway up to the lower quartile of the run's
+        # energies: with unequal tones half the symbols carry the weaker one
+        q = float(np.percentile(e[a:b], 25)) if b > a else n + g2
+        f, st = trim_to_burst(e[lo:hi], n, n + min(max(q - n, 0.25 * g2), g2))
+        for a2, b2 in _split_at_gaps(e[lo + f:lo + st], n, g2, pe[lo + f:lo + st]):
             if b2 - a2 >= min_symbols:
                 out.append((lo + f + a2, lo + f + b2))
     merged: list[tuple[int, int]] = []
@@ -506,8 +515,36 @@ def segment_symbols(energies: np.ndarray, noise_level: float, min_symbols: int =
     return merged
 
 
-def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, false_rate: float = 0.01
-                   ) -> list[tuple[int, int]]:
+def _noise_like(e: np.ndarray, noise_level: float, sigmas: float = 3.3) -> bool:
+    """Whether the symbols of a stretch are consistent with noise alone.
+
+    ``e`` holds each symbol's branch energies ``(|z0|^2, |z1|^2)`` (shape
+    ``(r, 2)``) or their sums (shape ``(r,)``).  A noise-only branch energy is
+    exponential with mean ``noise_level / 2``, so the mean of ``r`` of them
+    exceeds ``noise_level / 2 (1 + sigmas / sqrt(r))`` with probability about
+    ``Phi(-sigmas)`` (central limit; 3.3 sigmas: 5e-4 for either of the two
+    branches).  A run of the weaker of two unequal tones puts its energy on one
+    branch, which stands above that whenever the weaker tone can be decided;
+    with sums only, the test is on ``noise_level (1 + sigmas / sqrt(2 r))``.
+    """
+    e = np.asarray(e, float)
+    r = e.shape[0]
+    if r == 0:
+        return True
+    if e.ndim == 2:
+        return bool(np.max(e.mean(axis=0)) < 0.5 * noise_level * (1.0 + sigmas / np.sqrt(r)))
+    return bool(np.mean(e) < noise_level * (1.0 + sigmas / np.sqrt(2.0 * r)))
+
+
+#: Shortest gap that splits a burst, symbols.  A transmitter keying off and on
+#: again takes longer than this; a run of the weaker of two unequal tones
+#: (up to 9 symbols in PN9, 11 in PN11) can look like noise at low SNR when
+#: it is short, and is not a gap.
+MIN_GAP_SYMBOLS = 16
+
+
+def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, branch_energies: np.ndarray | None = None,
+                   false_rate: float = 0.01) -> list[tuple[int, int]]:
     """Split a burst where a run of symbols all fall below the midpoint energy.
 
     A burst symbol's energy ``|g + n0|^2 + |n1|^2`` (complex noise of variance
@@ -533,8 +570,11 @@ def _split_at_gaps(e: np.ndarray, noise_level: float, g2: float, false_rate: flo
     edges = np.flatnonzero(np.diff(np.concatenate(([0], low.astype(np.int8), [0])))).reshape(-1, 2)
     # a gap must also look like noise on average (a grid that drifts half a
     # symbol off inside a burst lowers the energy to about the midpoint, not to n)
+    r = max(r, MIN_GAP_SYMBOLS)
     long_enough = edges[(edges[:, 1] - edges[:, 0] >= r) & (edges[:, 0] > 0) & (edges[:, 1] < n_sym)]
-    gaps = [(a, b) for a, b in long_enough if np.mean(e[a:b]) < noise_level + 0.2 * g2]
+    gaps = [(a, b) for a, b in long_enough
+            if np.mean(e[a:b]) < noise_level + 0.2 * g2
+            and _noise_like((e if branch_energies is None else branch_energies)[a:b], noise_level)]
     if not gaps:
         return [(0, n_sym)]
     parts, start = [], 0
@@ -633,7 +673,7 @@ def noncoherent_frequency(rows: np.ndarray, sample_rate_hz: float, centre_hz: fl
 MIN_STEADY_SYMBOLS = 16
 
 
-def steady_symbols(tone_index: np.ndarray) -> np.ndarray:
+def steady_symbols(tone_index: np.ndarray, reach: int = 1) -> np.ndarray:
     """Symbols in the middle of a run: the same tone before, during and after.
 
     With a shaped frequency pulse (Gaussian, raised cosine) or receiver filters,
@@ -641,11 +681,17 @@ def steady_symbols(tone_index: np.ndarray) -> np.ndarray:
     change of tone, and a short run never reaches the tone; the middle of a run
     of three or more sits on the steady tone (what a long run settles to).  For
     rectangular keying every symbol does, so nothing is lost but symbols.
+    ``reach`` symbols either side must carry the same tone (1: runs of three).
     """
     b = np.asarray(tone_index).astype(np.int64)
-    out = np.zeros(len(b), bool)
-    if len(b) >= 3:
-        out[1:-1] = (b[1:-1] == b[:-2]) & (b[1:-1] == b[2:])
+    n = len(b)
+    out = np.zeros(n, bool)
+    if n > 2 * reach:
+        mid = b[reach:n - reach]
+        same = np.ones(n - 2 * reach, bool)
+        for j in range(1, reach + 1):
+            same &= (b[reach - j:n - reach - j] == mid) & (b[reach + j:n - reach + j] == mid)
+        out[reach:n - reach] = same
     return out
 
 
@@ -685,6 +731,13 @@ def transition_deficit(rows: np.ndarray, tone_index: np.ndarray, sample_rate_hz:
 #: transmission: its tones are then measured on the middle of runs only.
 SHAPED_SIGMAS = 4.0
 SHAPED_MIN_DEFICIT = 0.005
+#: Above this transition deficit (a Gaussian pulse of BT 0.3 at a deviation
+#: of R_s loses about half, BT 0.5 a sixth) a run of three has not
+#: settled in its middle symbol either: the tones are measured on runs of five
+#: when each tone has ``8 * MIN_STEADY_SYMBOLS`` of them (a 1500-symbol burst
+#: keeps runs of three: at 10 dB a sixteenth of the symbols spread the tones
+#: twice as far as the 0.2% of R_s that runs of three leave at BT 0.3).
+STRONGLY_SHAPED_DEFICIT = 0.3
 
 
 def _real_tone_power(rows: np.ndarray, freqs: np.ndarray, sample_rate_hz: float) -> np.ndarray:
@@ -776,6 +829,10 @@ def refine_tones(rows: np.ndarray, decisions: np.ndarray, sample_rate_hz: float,
         deficit, se = transition_deficit(rows, d, sample_rate_hz, tones_hz)
         if deficit > max(SHAPED_SIGMAS * se, SHAPED_MIN_DEFICIT):
             use = steady
+            wide = use & steady_symbols(decisions, 2)
+            if deficit > STRONGLY_SHAPED_DEFICIT and all(
+                    np.count_nonzero(wide & (d == i)) >= 8 * MIN_STEADY_SYMBOLS for i in (0, 1)):
+                use = wide
     for i in (0, 1):
         sel = use & (decisions == i)
         if np.count_nonzero(sel) < 4:

@@ -315,14 +315,11 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: f
     if grid.n_symbols < 1:
         return []
     # each symbol's correlator energy |z0|^2 + |z1|^2 is the window energy at its first sample
-    out = None
-    at = grid.first_samples - et.first
-    if et.window == grid.window and at.min() >= 0 and at.max() < len(et.values):
-        energy = et.values[at]
-    else:
-        out = branches.correlate(x, x_start, grid, tones, fs)
-        energy = np.sum(np.abs(out.z) ** 2, axis=1)
-    segs = acquire.segment_symbols(energy, 2.0 * noise_var, min_symbols=min_symbols)
+    # each branch's energy, so that a run of the weaker of two unequal tones is not taken for a gap
+    out = branches.correlate(x, x_start, grid, tones, fs)
+    branch_energy = out.z.real ** 2 + out.z.imag ** 2
+    segs = acquire.segment_symbols(branch_energy.sum(axis=1), 2.0 * noise_var, min_symbols=min_symbols,
+                                   branch_energies=branch_energy)
     span = _Span(tm, et, len(segs) == 1, out)
     return [(grid, f, s, span) for f, s in segs]
 
@@ -626,13 +623,17 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     on = p[np.arange(n), dec]
     off = p[np.arange(n), 1 - dec]
     s2 = float(np.mean(off))
-    g2 = float(np.mean(on) - s2)
-    if not (g2 > 0 and s2 > 0):
+    # each tone's own level: with unequal tones the weaker one's symbols at an
+    # edge would fail a test made for the mean of the two
+    g2_tone = np.array([np.mean(on[dec == i]) - s2 if np.any(dec == i) else np.nan for i in (0, 1)])
+    g2_tone = np.where(np.isfinite(g2_tone) & (g2_tone > 0), g2_tone, np.mean(on) - s2)
+    if not (np.all(g2_tone > 0) and s2 > 0):
         return None
-    g = np.sqrt(g2)
     # the ratio of the symbols within EDGE_SYMBOLS of each edge (the only ones looked at below)
     near = np.r_[0:min(pre + EDGE_SYMBOLS, ext.n_symbols), max(pre + n - EDGE_SYMBOLS, 0):ext.n_symbols]
     b_idx = np.asarray(bits, np.int64)[near] % 2
+    g2 = g2_tone[b_idx]
+    g = np.sqrt(g2)
     r = np.abs(z[near, b_idx])
     llr = np.full(ext.n_symbols, np.nan)
     llr_near = decide.log_i0(2 * g * r / s2) - g2 / s2

@@ -73,8 +73,8 @@ Z95 = 1.959963984540054  # standard normal 97.5% quantile (scipy.stats.norm.ppf(
 BAND_BINS = 2
 #: Fewest symbols a context needs to be fitted; symbols of thinner contexts are left out.
 MIN_CONTEXT_SYMBOLS = 8
-#: Symbols per context (on average) from which the context reaches two symbols either side.
-WIDE_CONTEXT_SYMBOLS = 120
+#: Symbols per context (on average) a context shape needs to be tried.
+WIDE_CONTEXT_SYMBOLS = 40
 
 # columns of the per-symbol figures
 _E, _Q0, _D0, _Q1, _D1, _ONE, _TONE1 = range(7)
@@ -169,18 +169,19 @@ def template_pairs(tones_hz, sample_rate_hz: float, window: int, real: bool, bas
     return out
 
 
-def symbol_contexts(tone_index: np.ndarray, reach: int) -> np.ndarray:
-    """Context code of each symbol: the tones of symbols ``k - reach .. k + reach`` as a
+def symbol_contexts(tone_index: np.ndarray, back: int, ahead: int) -> np.ndarray:
+    """Context code of each symbol: the tones of symbols ``k - back .. k + ahead`` as a
     binary number; -1 where the context runs past either end."""
     b = np.asarray(tone_index).astype(np.int64)
     n = len(b)
     code = np.full(n, -1, np.int64)
-    if n <= 2 * reach:
+    span = back + ahead
+    if n <= span:
         return code
-    c = np.zeros(n - 2 * reach, np.int64)
-    for j in range(2 * reach + 1):
-        c = 2 * c + b[j:n - 2 * reach + j]
-    code[reach:n - reach] = c
+    c = np.zeros(n - span, np.int64)
+    for j in range(span + 1):
+        c = 2 * c + b[j:n - span + j]
+    code[back:n - ahead] = c
     return code
 
 
@@ -251,25 +252,65 @@ def energy_sums(rows: np.ndarray, tone_index: np.ndarray, tones_hz, sample_rate_
     if n < 2 * MIN_CONTEXT_SYMBOLS or L < 2:
         return None
     b = np.asarray(tone_index).astype(np.int64)
-    reach = 2 if n >= 32 * WIDE_CONTEXT_SYMBOLS else 1
-    code = symbol_contexts(b, reach)
-    if mask is not None:
-        known = np.asarray(mask, bool)
-        bad = np.convolve(~known, np.ones(2 * reach + 1), mode="same") > 0
-        code[bad] = -1
+    known = None if mask is None else np.asarray(mask, bool)
     basis = band_basis(tones_hz, sample_rate_hz, L, real)
     pairs = template_pairs(tones_hz, sample_rate_hz, L, real, basis)
-    y_in = rows.real if real else np.concatenate([rows.real, rows.imag], axis=1)
+    y = (rows.real if real else np.concatenate([rows.real, rows.imag], axis=1)) @ basis
+    best = None
+    for back, ahead in CONTEXT_SHAPES:
+        if n < 2 ** (back + ahead + 1) * WIDE_CONTEXT_SYMBOLS and (back, ahead) != CONTEXT_SHAPES[0]:
+            continue
+        if best is not None and not _ratio(best.s, best.scale)[0] >= WIDER_CONTEXT_MIN_ESN0:
+            break
+        got = _sums_for_contexts(y, b, known, back, ahead, pairs, scale)
+        if got is None:
+            continue
+        # a wider context must lower the noise left outside the signal by a margin:
+        # what it explains beyond the narrower one is intersymbol interference
+        if best is None or _noise_density(got) < (1.0 - WIDER_CONTEXT_GAIN) * _noise_density(best):
+            best = got
+    return best
+
+
+#: Context shapes tried (symbols before, after): the immediate neighbours; two
+#: either side (Gaussian BT 0.3, raised-cosine transitions); three before and
+#: one after, and four before (causal receiver filters ring on after a change).
+CONTEXT_SHAPES = ((1, 1), (2, 2), (3, 1), (4, 1))
+#: A wider context is kept when it lowers the noise estimate by this fraction or more.
+WIDER_CONTEXT_GAIN = 0.01
+#: Wider contexts are tried only above this Es/N0 (linear; 15 dB): interference
+#: from beyond the immediate neighbours is 30 dB or more below the signal for
+#: the pulses and filters radios use, so below this it is a few per cent of the
+#: noise, less than what fitting four times as many contexts costs in
+#: second-order bias.
+WIDER_CONTEXT_MIN_ESN0 = 10 ** 1.5
+
+
+def _noise_density(s: EnergySums) -> float:
+    return float(s.s[_Q0] / s.s[_D0] + s.s[_Q1] / s.s[_D1])
+
+
+def _sums_for_contexts(y: np.ndarray, b: np.ndarray, known, back: int, ahead: int, pairs: list,
+                       scale: float) -> EnergySums | None:
+    """:class:`EnergySums` of band coordinates ``y`` with contexts of ``back`` and ``ahead`` symbols."""
+    code = symbol_contexts(b, back, ahead)
+    if known is not None:
+        unknown = np.flatnonzero(~known)
+        for j in range(-ahead, back + 1):          # symbol k is unusable if any of k-back..k+ahead is unknown
+            idx = unknown + j
+            code[idx[(idx >= 0) & (idx < len(code))]] = -1
     figs = []
     for c in np.unique(code[code >= 0]):
         idx = np.flatnonzero(code == c)
         if idx.size < MIN_CONTEXT_SYMBOLS:
             continue
-        f = _context_figures(y_in[idx] @ basis, pairs)
+        f = _context_figures(y[idx], pairs)
         figs.append(np.column_stack([f, np.ones(idx.size), b[idx].astype(float)]))
     if not figs:
         return None
     v = np.concatenate(figs)
+    if v[:, _D0].sum() <= 0 or v[:, _D1].sum() <= 0:
+        return None
     return EnergySums(s=v.sum(axis=0), m=v.T @ v, scale=float(scale))
 
 

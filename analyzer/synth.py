@@ -72,9 +72,8 @@ normalised bandwidth) is:
   (``channel_filter_hz = B > 0``: a linear-phase low-pass FIR passing
   ``|f| <= B`` flat within 0.02 dB and stopping ``|f| >= 1.25 B`` by 60 dB,
   [2]_, the decimation filter of an SDR) applied to signal and noise together,
-  the noise at the capture is coloured; ``N0`` is the density in the passband
-  (that of the white noise before the filter, which the filter passes
-  unchanged near the centre).  The FIR is applied centred (zero delay), so the
+  the noise at the capture is coloured; ``N0`` is then the density seen by
+  the receiver (below).  The FIR is applied centred (zero delay), so the
   timing truth is unchanged.
 * *real audio* (``real=True``): real noise of variance ``sigma^2`` has
   two-sided density ``N0/2 = sigma^2``, so ``N0 = 2 sigma^2``.  With the
@@ -86,11 +85,17 @@ normalised bandwidth) is:
   ``1/(2 pi tau)``; common practice; a first-order IIR fitted to that
   magnitude over the band, :func:`deemphasis_ba`; 0 turns it off) and a level
   tilt (``tilt_db``, below).  The
-  noise at the capture is then not white; ``N0 = 2 sigma^2 (|H(f_0)|^2 +
-  |H(f_1)|^2) / 2``, the chain's noise density averaged (in power) at the two
-  steady tones.  The filters are causal: the bursts reach the capture delayed
+  noise at the capture is then not white, and ``N0`` is the density seen by
+  the receiver (below).  The filters are causal: the bursts reach the capture delayed
   by the chain's group delay (averaged at the two tones), which the truth adds
   to the burst start and stop samples (``chain_delay_samples``).
+
+*Coloured noise* (channel filter, receiver chain, tilt): ``N0`` is the
+density of the white noise that would put the same noise on a unit-energy
+rectangular template of one symbol at each steady tone, averaged over the two
+tones (:func:`template_noise_gain`): the noise the noncoherent receiver's
+correlators see, which sets its error rate.  For a passband flat across each
+template's main lobes it is the passband density.
 
 ``tilt_db`` (audio) is a zero-phase gain linear in dB between the steady
 tones, ``tilt_db`` higher at the upper tone than at the lower (0 dB at their
@@ -121,7 +126,7 @@ from scipy import special
 from . import frames, prbs
 
 __all__ = ["SynthParams", "SynthResult", "synthesize", "frequency_pulse", "phase_pulse", "PULSES",
-           "channel_filter_taps", "deemphasis_ba", "receiver_audio_sos", "tilt_gain_db"]
+           "channel_filter_taps", "deemphasis_ba", "receiver_audio_sos", "tilt_gain_db", "template_noise_gain"]
 
 PULSES = ("rect", "gaussian", "raised-cosine")
 
@@ -583,13 +588,34 @@ def _bursts(p: SynthParams, rng: np.random.Generator, total: int, starts: np.nda
     return out, gain
 
 
+def template_noise_gain(p: SynthParams, grid_points: int = 1 << 14) -> float:
+    """Power gain of the capture's filters for noise seen through a one-symbol tone template.
+
+    The mean over the two steady tones of ``sum_f G(f) |W(f - f_i)|^2 / sum_f
+    |W(f - f_i)|^2``, with ``G`` the power gain of everything applied to the
+    capture (:func:`_chain_power_gain`, at ``|f|`` for real audio) and ``W`` the
+    spectrum of a rectangular window of ``floor(fs / R_s)`` samples (a
+    Dirichlet kernel); 1 when nothing is applied.
+    """
+    if not _has_chain(p):
+        return 1.0
+    fs = p.sample_rate_hz
+    L = int(np.floor(fs / p.symbol_rate_hz))
+    f = (np.arange(grid_points) / grid_points - 0.5) * fs
+    g = _chain_power_gain(np.abs(f) if p.real else f, p)
+    out = []
+    for fi in p.steady_tones():
+        u = (f - fi) / fs
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w = np.where(np.abs(np.sin(np.pi * u)) < 1e-12, float(L),
+                         np.sin(np.pi * L * u) / np.sin(np.pi * u)) ** 2
+        out.append(float(np.sum(g * w) / np.sum(w)))
+    return float(np.mean(out))
+
+
 def _n0_per_sigma2(p: SynthParams) -> float:
     """N0 at the capture over the variance of the white noise added (module docstring)."""
-    if not p.real:
-        return 1.0
-    if not (p.receiver_audio or p.tilt_db):
-        return 2.0
-    return 2.0 * float(np.mean(_chain_power_gain(np.asarray(p.steady_tones()), p)))
+    return (2.0 if p.real else 1.0) * template_noise_gain(p)
 
 
 def _framed_tones(p: SynthParams, rng: np.random.Generator) -> tuple[np.ndarray, list[list[dict]]]:

@@ -8,7 +8,7 @@ import pytest
 from scipy import integrate, signal, special, stats
 
 from analyzer import synth
-from analyzer.synth import SynthParams, synthesize
+from analyzer.synth import SynthParams, channel_filter_taps, synthesize
 
 FS, RS = 80000.0, 5000.0
 
@@ -152,23 +152,38 @@ def test_noise_density_matches_the_truth(kw):
                                 dict(real=True, tones_hz=(1200.0, 2200.0), symbol_rate_hz=1200.0,
                                      sample_rate_hz=48000.0, receiver_audio=True, tilt_db=-3.0)])
 def test_ebn0_at_the_capture_after_filters(kw):
-    # Eb from the noiseless samples as written over N0 as defined (passband density for the channel
-    # filter; receiver chain: 2 sigma^2 x the mean of |H|^2 at the tones, H rebuilt here from
-    # scipy.signal.butter and the first-order de-emphasis formula |H| = 1/sqrt(1 + (2 pi f tau)^2),
-    # common practice, and the tilt +-1.5 dB at the tones). Tolerance 0.01 dB (the de-emphasis fit).
+    # Eb from the noiseless samples as written over N0 as defined for coloured noise: the density of
+    # white noise that puts the same noise on a unit-energy one-symbol tone template, averaged over
+    # the two tones.  The reference integrates |H(f)|^2 |W(f - f_i)|^2 with W the zero-padded FFT of
+    # the rectangular template (numpy.fft) and H rebuilt here: scipy.signal.butter and the
+    # first-order de-emphasis formula |H| = 1/sqrt(1 + (2 pi f tau)^2) (common practice) with the
+    # tilt linear in dB between the tones; the channel filter's taps through scipy.signal.freqz.
+    # Tolerance 0.02 dB (the de-emphasis fit and the frequency grid).
     res = synthesize(SynthParams(ebn0_db=15.0, symbols_per_burst=300, **kw))
     t = res.truth
-    eb = np.sum(np.abs(res.signal) ** 2) / res.bits.size
-    sigma2 = t["noise_sigma"] ** 2
+    p = t["params"]
+    fs = p["sample_rate_hz"]
+    L = int(fs // p["symbol_rate_hz"])
+    nfft = 1 << 15
+    f = np.fft.fftfreq(nfft, 1 / fs)
     if kw.get("real"):
-        f = np.array(t["tones_hz"])
-        sos = signal.butter(4, (300.0, 3000.0), btype="bandpass", output="sos", fs=48000.0)
-        _, h = signal.sosfreqz(sos, worN=f, fs=48000.0)
-        h2 = np.abs(h) ** 2 / (1 + (2 * np.pi * f * 750e-6) ** 2) * 10 ** (np.array([1.5, -1.5]) / 10)
-        n0 = 2 * sigma2 * np.mean(h2)
+        sos = signal.butter(4, (300.0, 3000.0), btype="bandpass", output="sos", fs=fs)
+        _, h = signal.sosfreqz(sos, worN=np.abs(f), fs=fs)
+        lo, hi = t["tones_hz"]
+        tilt = np.clip((np.abs(f) - 0.5 * (lo + hi)) / (hi - lo), -0.5, 0.5) * kw["tilt_db"]
+        g = np.abs(h) ** 2 / (1 + (2 * np.pi * np.abs(f) * 750e-6) ** 2) * 10 ** (tilt / 10)
+        white = 2.0
     else:
-        n0 = sigma2
-    assert 10 * np.log10(eb / n0) == pytest.approx(15.0, abs=0.01)
+        _, h = signal.freqz(channel_filter_taps(4000.0, fs), worN=f, fs=fs)
+        g = np.abs(h) ** 2
+        white = 1.0
+    gain = []
+    for fi in t["tones_hz"]:
+        w = np.fft.fft(np.exp(2j * np.pi * fi * np.arange(L) / fs) / np.sqrt(L), nfft)
+        gain.append(np.sum(g * np.abs(w) ** 2) / np.sum(np.abs(w) ** 2))
+    n0 = white * t["noise_sigma"] ** 2 * np.mean(gain)
+    eb = np.sum(np.abs(res.signal) ** 2) / res.bits.size
+    assert 10 * np.log10(eb / n0) == pytest.approx(15.0, abs=0.02)
     assert t["ebn0_db"] == pytest.approx(15.0, abs=1e-9)
 
 
