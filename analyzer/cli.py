@@ -299,7 +299,16 @@ def batch(
 
 
 def main() -> None:
-    """Console-script entry point."""
+    """Console-script entry point.
+
+    Numerical warnings of the libraries (numpy's "invalid value encountered",
+    scipy's) are not shown: every figure that can be undefined is reported as
+    such in the summary and the reports, and what the user must know arrives as
+    a ``warning:`` line of our own.
+    """
+    import warnings
+
+    warnings.filterwarnings("ignore", category=RuntimeWarning)
     try:
         app()
     except KeyboardInterrupt:

@@ -513,6 +513,8 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
     fth = frames.frame_theory(stats.ebn0, model, fc, stats.ebn0_db, stats.ebn0_db_ci95) if fc is not None else None
+    if stats.ebn0_db >= GRID_FIT_MIN_EBN0_DB:
+        _check_grid_fit(x, x_start, fs, grid, tones, dec)
     p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
     diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows)
     return BurstResult(
@@ -534,6 +536,40 @@ def _frame_count(opts: AnalysisOptions, dec: np.ndarray) -> frames.FrameCount | 
     if opts.reference == "auto" and not frames.looks_framed(fc):
         return None
     return fc
+
+
+#: Share of changes of tone near half a symbol off the grid above which a burst's
+#: timing is said not to fit one regular grid (a few per cent when it fits, at
+#: 10 dB or more, 7% for a Gaussian pulse of BT 0.3 at 10 dB; 50 Bd start-stop characters
+#: with 1.5 stop bits timed on a 50 Bd grid put 12% there).
+GRID_OFF_SHARE = 0.10
+#: The grid fit is judged on bursts of at least this Eb/N0 (the change points scatter below).
+GRID_FIT_MIN_EBN0_DB = 10.0
+#: Share of runs of an even number of symbols above which the rate may be twice the true one
+#: (a third for random data or a PRBS; all of them when every symbol is doubled; about
+#: three quarters for start-stop characters with 1.5 stop bits timed at twice their rate).
+EVEN_RUN_SHARE = 0.6
+
+
+def _check_grid_fit(x, x_start, fs, grid, tones, dec) -> None:
+    """Warn when the changes of tone do not fall on one regular symbol grid."""
+    m = int(max(1, round(grid.samples_per_symbol / 2)))
+    lo = max(int(np.floor(grid.first_start)) - x_start - grid.window, 0)
+    hi = min(int(np.ceil(grid.stop)) - x_start + grid.window, len(x))
+    if hi - lo < 4 * m:
+        return
+    d = acquire.tone_difference(x[lo:hi], fs, tones, m)
+    off, even = acquire.grid_fit(dec, d, x_start + lo, grid)
+    rate = fs / grid.samples_per_symbol
+    where = f"the burst at sample {grid.first_start:.0f}"
+    if off > GRID_OFF_SHARE:
+        warn(f"{where}: {100 * off:.0f}% of its changes of tone lie about half a symbol off one regular "
+             f"grid at {rate:.6g} Bd: the timing is not one regular grid (start-stop characters, e.g. with "
+             "1.5 stop bits?); symbol-level figures assume it is")
+    elif even > EVEN_RUN_SHARE:
+        warn(f"{where}: {100 * even:.0f}% of its runs of one tone last an even number of symbols at "
+             f"{rate:.6g} Bd: the symbol rate may be {rate / 2:.6g} Bd with half-symbol steps (start-stop "
+             "characters with 1.5 stop bits fit a grid of half symbols); give --baud to choose")
 
 
 def _correlate_again(x, x_start, grid, tones, fs, prev: branches.BranchOutputs | None) -> branches.BranchOutputs:
