@@ -659,10 +659,11 @@ class LossParts:
     imbalance_db: float
     rest_db: float
     template_db: float = float("nan")
+    shaping_db: float = float("nan")
 
 
 def loss_parts(total_db: float, ber: float, model: theory.LinkModel,
-               template_db: float = float("nan")) -> LossParts:
+               template_db: float = float("nan"), shaping_db: float = float("nan")) -> LossParts:
     """Split ``total_db`` (against ideal orthogonal equal-energy BFSK) into causes.
 
     ``correlation`` is the extra Eb/N0 equal-energy tones of the measured
@@ -670,21 +671,24 @@ def loss_parts(total_db: float, ber: float, model: theory.LinkModel,
     measured imbalance costs, and ``rest`` what remains (timing, frequency and
     pulse-shape errors, interference, estimation error).
 
-    ``template_db`` (optional, from :func:`measured_pulse`) is the energy the
-    rectangular template fails to collect from the measured pulse.  It is *not*
-    part of ``total_db``: the measured Eb/N0 is the energy the receiver's
-    templates collect, so a pulse mismatch lowers the measured Eb/N0 rather than
-    raising the loss against theory.  It is the further gain a template matched
-    to the measured pulse would have, and is reported beside the split.
+    ``shaping_db`` (the physical Eb/N0 less the correlators' own reading, see
+    :func:`analyzer.estimate.with_physical_ebn0`) is what pulse shaping,
+    filters and intersymbol interference cost the correlators: part of
+    ``total_db`` (the measured Eb/N0 is the signal energy at the capture), named
+    as its own cause and taken out of ``rest`` when finite.  ``template_db``
+    (optional, from :func:`measured_pulse`) is the energy the rectangular
+    template fails to collect from the measured pulse, reported beside the split.
     """
     t = float(template_db)
+    sh = float(shaping_db)
     if not (np.isfinite(total_db) and 0 < ber < 0.5):
-        return LossParts(float(total_db), float("nan"), float("nan"), float("nan"), t)
+        return LossParts(float(total_db), float("nan"), float("nan"), float("nan"), t, sh)
     ideal = float(theory.ebn0_required_db(ber))
     corr_only = theory.LinkModel(tone_correlation=model.tone_correlation, imbalance_db=0.0)
     c = float(theory.ebn0_required_db(ber, corr_only)) - ideal
     both = float(theory.ebn0_required_db(ber, model)) - ideal
-    return LossParts(float(total_db), c, both - c, float(total_db) - both, t)
+    rest = float(total_db) - both - (sh if np.isfinite(sh) else 0.0)
+    return LossParts(float(total_db), c, both - c, rest, t, sh)
 
 
 # --------------------------------------------------------------------------- four-output correlations

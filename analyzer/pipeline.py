@@ -595,7 +595,8 @@ def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, be
     ncor = diagnostics.noise_correlation(diagnostics.noise_window_outputs(x, x_start, grid, tones, fs), rho)
     parts = None
     if loss is not None and ber is not None and ber.errors > 0:
-        parts = diagnostics.loss_parts(loss.value, ber.rate, model, pulse.template_loss_db_mean)
+        parts = diagnostics.loss_parts(loss.value, ber.rate, model, pulse.template_loss_db_mean,
+                                       stats.ebn0_db - stats.correlator_ebn0_db)
     ok = np.isfinite(stats.ebn0_db)
     blind = diagnostics.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if ok else None
     gain = diagnostics.decision_gain(stats.ebn0, stats.imbalance_db) if ok else None
@@ -774,7 +775,13 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
             tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
                                                transitions=trans))
         top = max(t.line_snr for t in tried)
-        best = min((t for t in tried if t.line_snr >= 0.5 * top), key=lambda t: t.symbol_rate_hz)
+        strongest = max(tried, key=lambda t: t.line_snr).symbol_rate_hz
+        # the rate, not a harmonic: the lowest rate whose line is at least half the strongest,
+        # or a sub-multiple R/2..R/4 of the strongest whose own line still stands out clearly
+        # (short windows can make a harmonic's line several times the symbol rate's own)
+        best = min((t for t in tried if t.line_snr >= 0.5 * top or (
+            t.line_snr >= max(HARMONIC_LINE_SHARE * top, 2 * BLIND_MIN_LINE_QUALITY)
+            and _sub_multiple(strongest, t.symbol_rate_hz))), key=lambda t: t.symbol_rate_hz)
         rs, quality = best.symbol_rate_hz, best.line_snr
         if quality < BLIND_MIN_LINE_QUALITY:
             warn(f"{path}: the candidate burst near sample {start} ({len(x)} samples) shows no symbol-rate "
@@ -782,6 +789,19 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
                  "unkeyed carrier, not analysed; give --tones and --baud to analyse it anyway")
             return None
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
+
+
+#: A sub-multiple R/k (k = 2..4) of the rate with the strongest timing line is taken
+#: for the symbol rate when its own line is at least this share of the strongest
+#: (1200 Bd AFSK audio at 20 dB: the 3600 Bd window's line 566, the 1200 Bd one 175,
+#: the spurious 400 Bd one 13).
+HARMONIC_LINE_SHARE = 0.15
+
+
+def _sub_multiple(rate: float, cand: float) -> bool:
+    """Whether ``cand`` is ``rate / k`` for k = 2, 3 or 4 (within 0.2%: both lines are measured to a few ppm)."""
+    k = rate / cand
+    return any(abs(k - m) < 0.002 * m for m in (2, 3, 4))
 
 
 #: Blind, a region whose best timing line stands less than this far above the

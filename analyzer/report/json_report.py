@@ -118,6 +118,7 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "noise_var": [_num(v) for v in b.stats.noise_var],
         "ebn0_db": _num(b.stats.ebn0_db),
         "ebn0_db_ci95": _pair(b.stats.ebn0_db_ci95),
+        "correlator_ebn0_db": _num(b.stats.correlator_ebn0_db),
         "ebn0_tone_db": [_num(v) for v in b.stats.ebn0_tone_db],
         "statistics": "data-aided" if b.stats.data_aided else "decision-directed",
         "ber": _ber(b.ber),
@@ -143,7 +144,8 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "blind_ber_ci95": [None, None] if b.blind_ber is None else _pair(b.blind_ber[1]),
         "loss_parts_db": None if b.loss_parts is None else {
             "correlation": _num(b.loss_parts.correlation_db), "imbalance": _num(b.loss_parts.imbalance_db),
-            "rest": _num(b.loss_parts.rest_db), "template_mismatch": _num(b.loss_parts.template_db)},
+            "rest": _num(b.loss_parts.rest_db), "template_mismatch": _num(b.loss_parts.template_db),
+            "shaping": _num(b.loss_parts.shaping_db)},
         "decision_gain": None if getattr(b, "decision_gain", None) is None else {
             "ber_square_law": _num(b.decision_gain.ber_square_law),
             "ber_likelihood": _num(b.decision_gain.ber_likelihood),
