@@ -85,3 +85,20 @@ def test_output_equal_to_input_is_refused(capture, tmp_path):
                             "--json", str(capture)])
     assert r.exit_code == 2
     assert "same file as an input" in r.stderr
+
+
+def test_reports_and_captures_respect_the_umask(tmp_path, run_cli):
+    # POSIX open(2): a new file gets mode 0666 & ~umask (a temporary file's private 0600 must not leak)
+    import os
+    import stat
+
+    old = os.umask(0o027)
+    try:
+        res = run_cli("synth", tmp_path / "u.sigmf-meta", "--symbols", "400")
+        assert res.exit_code == 0, res.output
+        res = run_cli("analyze", tmp_path / "u.sigmf-meta", "--out", tmp_path / "o", "--quiet")
+        assert res.exit_code == 0, res.output
+    finally:
+        os.umask(old)
+    for p in [tmp_path / "u.sigmf-meta", tmp_path / "u.sigmf-data", *sorted((tmp_path / "o").iterdir())]:
+        assert stat.S_IMODE(p.stat().st_mode) == 0o640, p
