@@ -174,19 +174,19 @@ def synth(
                                                         "NAME.flac."),
     tones: str = typer.Option("-2500,2500", "--tones", metavar="F0,F1",
                               help="Nominal tones, Hz (the steady tones a long run of one symbol settles to)."),
-    baud: float = typer.Option(5000.0, "--baud", help="Symbol rate, Hz."),
-    rate: float = typer.Option(80000.0, "--rate", help="Sample rate, Hz."),
-    ebn0: float = typer.Option(10.0, "--ebn0", help="Eb/N0 at the capture in dB: signal energy per bit as "
+    baud: float = typer.Option(5000.0, "--baud", metavar="R", help="Symbol rate, Hz."),
+    rate: float = typer.Option(80000.0, "--rate", metavar="HZ", help="Sample rate, Hz."),
+    ebn0: float = typer.Option(10.0, "--ebn0", metavar="DB", help="Eb/N0 at the capture in dB: signal energy per bit as "
                                                     "written (after any filter) over the noise density N0 "
                                                     "(in the passband; for receiver audio at the two tones)."),
-    offset: float = typer.Option(0.0, "--offset", help="Transmitter frequency error added to both tones, Hz."),
+    offset: float = typer.Option(0.0, "--offset", metavar="HZ", help="Transmitter frequency error added to both tones, Hz."),
     continuous_phase: bool = typer.Option(True, "--continuous-phase/--random-phase",
                                           help="Continuous phase (a VCO or DDS modulator; the default), or an "
                                                "independent random phase jump at every symbol boundary."),
     pulse: str = typer.Option("rect", "--pulse", metavar="SHAPE",
                               help="Frequency pulse: rect (hard keying), gaussian (with --bt; GMSK-style) or "
                                    "raised-cosine (with --transition). Example: --pulse gaussian --bt 0.3"),
-    bt: float = typer.Option(0.5, "--bt", help="Bandwidth-time product of the Gaussian pulse (0.5, 0.3 ...)."),
+    bt: float = typer.Option(0.5, "--bt", metavar="BT", help="Bandwidth-time product of the Gaussian pulse (0.5, 0.3 ...)."),
     transition: float = typer.Option(0.5, "--transition", metavar="SYMBOLS",
                                      help="Length of each raised-cosine change of tone, in symbols (1 = the "
                                           "whole symbol; at most 1 keeps the tone steady mid-symbol)."),
@@ -214,23 +214,32 @@ def synth(
     tilt: float = typer.Option(0.0, "--tilt", metavar="DB",
                                help="Audio: level of the upper tone over the lower one, dB, on signal and noise "
                                     "(negative: upper weaker). Example: --receiver-audio --tilt -4"),
-    start: float = typer.Option(1000.0, "--start", help="Fractional sample where the first symbol begins."),
-    rate_error: float = typer.Option(0.0, "--rate-error", help="Symbol-rate error, ppm."),
-    bursts: int = typer.Option(1, "--bursts", help="Number of bursts."),
-    symbols: int = typer.Option(2000, "--symbols", help="Symbols per burst."),
-    gap: float = typer.Option(4000.0, "--gap", help="Samples of noise between bursts."),
-    pattern: str = typer.Option("PN9", "--pattern", help="ITU-T O.150 pattern: PN7, PN9, PN11, PN15, PN23."),
-    framing: str = typer.Option("none", "--framing", help="none (the --pattern), or hdlc: HDLC frames of random "
+    start: float = typer.Option(1000.0, "--start", metavar="SAMPLE",
+                                help="Fractional sample where the first symbol begins."),
+    baud_error: float = typer.Option(0.0, "--baud-error", metavar="PPM",
+                                     help="Symbol-rate error of the transmitter, ppm."),
+    rate_error: Optional[float] = typer.Option(None, "--rate-error", hidden=True,
+                                               help="Old name of --baud-error."),
+    bursts: int = typer.Option(1, "--bursts", metavar="N", help="Number of bursts."),
+    symbols: int = typer.Option(2000, "--symbols", metavar="N", help="Symbols per burst."),
+    gap: float = typer.Option(4000.0, "--gap", metavar="SAMPLES", help="Samples of noise between bursts."),
+    pattern: str = typer.Option("PN9", "--reference", "--pattern", metavar="REF",
+                                help="Test pattern sent, ITU-T O.150: PN7, PN9, PN11, PN15, PN23 (any case; as "
+                                     "analyze --reference; --pattern is the old name)."),
+    framing: str = typer.Option("none", "--framing", metavar="FRAMING", help="none (the --reference), or hdlc: HDLC frames of random "
                                                           "payloads (NRZI, zero-bit insertion, X.25 FCS), flags "
                                                           "before, between and after them."),
     frame_bytes: int = typer.Option(32, "--frame-bytes", metavar="N", help="With --framing hdlc: payload bytes "
                                                                            "of each frame (the FCS is added)."),
     amplitudes: str = typer.Option("1,1", "--amplitudes", metavar="A0,A1", help="Relative tone amplitudes."),
-    ramp: float = typer.Option(0.0, "--ramp", help="Power ramp at each burst edge, symbols."),
-    datatype: str = typer.Option("cf32_le", "--datatype", help="SigMF datatype: cf32_le or ci16_le."),
+    ramp: float = typer.Option(0.0, "--ramp", metavar="SYMBOLS", help="Power ramp at each burst edge, symbols."),
+    sample_format: str = typer.Option("cf32", "--format", metavar="FORMAT",
+                                      help="Sample format of a SigMF capture: cf32 or ci16 (little-endian I/Q, "
+                                           "as analyze --format)."),
+    datatype: Optional[str] = typer.Option(None, "--datatype", hidden=True, help="Old name of --format."),
     audio: bool = typer.Option(False, "--audio", help="Write mono real audio (tones in audio Hz)."),
-    centre: Optional[float] = typer.Option(None, "--centre", help="RF centre frequency to record, Hz."),
-    seed: int = typer.Option(1, "--seed", help="Random seed."),
+    centre: Optional[float] = typer.Option(None, "--centre", metavar="HZ", help="RF centre frequency to record, Hz."),
+    seed: int = typer.Option(1, "--seed", metavar="N", help="Random seed."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace files that exist."),
 ):
     """Write a synthetic capture of FSK bursts in noise, with its truth (demo data and tests).
@@ -247,10 +256,15 @@ def synth(
     try:
         if deviation is not None and index is not None:
             raise InputError("give --deviation or --index, not both", None, "--index H means deviation H*baud/2")
+        fmt = (datatype or sample_format).strip().lower().removesuffix("_le")
+        if fmt not in ("cf32", "ci16"):
+            raise InputError(f"unknown sample format {datatype or sample_format!r}", None,
+                             "--format takes cf32 or ci16 (see tonepair synth --help)")
         path = run_synth(out=out, tones=_pair(tones, "--tones"), baud=baud, rate=rate, ebn0=ebn0, offset=offset,
-                         continuous_phase=continuous_phase, start=start, rate_error=rate_error, bursts=bursts,
-                         symbols=symbols, gap=gap, pattern=pattern, amplitudes=_pair(amplitudes, "--amplitudes"),
-                         ramp=ramp, datatype=datatype, audio=audio, centre=centre, seed=seed, overwrite=overwrite,
+                         continuous_phase=continuous_phase, start=start,
+                         rate_error=baud_error if rate_error is None else rate_error, bursts=bursts,
+                         symbols=symbols, gap=gap, pattern=pattern.strip().upper(),
+                         amplitudes=_pair(amplitudes, "--amplitudes"), ramp=ramp, datatype=f"{fmt}_le", audio=audio, centre=centre, seed=seed, overwrite=overwrite,
                          framing=framing, frame_bytes=frame_bytes,
                          pulse=pulse, bt=bt, transition=transition,
                          deviation=(0.5 * index * baud if index is not None else deviation), drift=drift,

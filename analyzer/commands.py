@@ -229,6 +229,25 @@ def _analysis_reports(result, spec, paths: dict[str, Path], workers, cb) -> tupl
     return report, items
 
 
+#: Parameter names of the synthesiser -> the synth options a user types.
+_SYNTH_OPTIONS = (("tones_hz must be (f0, f1) with f0 < f1", "--tones F0,F1 needs F0 < F1"),
+                  ("symbol_rate_hz", "--baud"), ("sample_rate_hz", "--rate"), ("symbol_ramp", "--ramp"),
+                  ("channel_filter_hz", "--channel-filter"), ("audio_band_hz", "--band"),
+                  ("deemphasis_us", "--deemphasis"), ("deviation_hz", "--deviation"),
+                  ("bt (Gaussian", "--bt (Gaussian"), ("transition (raised", "--transition (raised"),
+                  ("pulse must", "--pulse must"), ("unknown pattern", "unknown --reference"),
+                  ("unknown framing", "unknown --framing"), ("(real=True)", "(--audio)"),
+                  (" and audio_order at least 1", ""), ("tone amplitudes", "--amplitudes"),
+                  ("offsets, gaps and tails", "--offset, --gap and --start"))
+
+
+def synth_problem(text: str) -> str:
+    """A synthesiser's complaint in the words of the synth options."""
+    for internal, option in _SYNTH_OPTIONS:
+        text = text.replace(internal, option)
+    return text
+
+
 def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, start, rate_error, bursts, symbols,
               gap, pattern, amplitudes, ramp, datatype, audio, centre, seed, overwrite, framing: str = "none",
               frame_bytes: int = 32, pulse="rect", bt=0.5,
@@ -249,7 +268,7 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
                              channel_filter_hz=channel_filter, receiver_audio=receiver_audio,
                              audio_band_hz=tuple(band), deemphasis_us=deemphasis, tilt_db=tilt)
     except ValueError as exc:
-        raise InputError(str(exc), None, "see tonepair synth --help") from None
+        raise InputError(synth_problem(str(exc)), None, "see tonepair synth --help") from None
     res = synthesize(params)
     out = Path(out)
     suffix = out.suffix.lower()
