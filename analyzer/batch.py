@@ -198,7 +198,8 @@ def summary_html(summary: dict, html_path: Path) -> str:
     def link(p):
         return os.path.relpath(Path(p).resolve(), here) if p else None
 
-    rows = [{**e, "html_link": link(e["reports"].get("html")), "json_link": link(e["reports"].get("json"))}
+    rows = [{**e, "html_link": link(e["reports"].get("html")), "json_link": link(e["reports"].get("json")),
+             "pdf_link": link(e["reports"].get("pdf"))}
             for e in summary["captures"]]
     return env.get_template("batch.html.j2").render(s=summary, rows=rows, generated=generated_at())
 
@@ -255,7 +256,7 @@ def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers
         for e in entries:
             word = style.VERDICT_WORDS.get(e["verdict"], str(e["verdict"]))
             if e["error"]:
-                line = f"not analysed: {e['error']}"
+                line = e["error"]
             else:
                 line = f"Eb/N0 {style.fixed(e['ebn0_db'], 2, 'dB')}" if e["ebn0_db"] is not None else "no Eb/N0"
                 if e["failed_checks"]:

@@ -161,18 +161,60 @@ def test_pdf_pages_have_no_overlapping_text(analysed, n_bursts, judged):
     assert problems == []
 
 
-def test_figures_drawn_in_worker_processes_are_the_same_pictures(analysed, monkeypatch):
-    # the same code on the same result: the PNG bytes of every figure agree exactly (identity)
-    from analyzer.report import figures
-    from analyzer.workers import can_fork
+_FORKED_FIGURES = r"""
+import sys
+from analyzer import writers
+from analyzer.pipeline import analyze
+from analyzer.report import figures
+from analyzer.synth import SynthParams, synthesize
 
-    if not can_fork():
-        pytest.skip("this platform or process cannot fork")
-    _base, _judged, serial = analysed
-    monkeypatch.setattr(figures, "_idle_cores", lambda: 2)
-    from analyzer.pipeline import analyze
+res = synthesize(SynthParams(ebn0_db=9.0, n_bursts=2, symbols_per_burst=400, seed=5))
+cap = writers.write_sigmf(sys.argv[1] + "/cap", res.samples, 80e3, truth=res.truth)
+result = analyze(cap, tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, workers=1)
+serial = figures.render_all(result, workers=1)
+figures._idle_cores = lambda: 2
+forked = figures.render_all(result, workers=2)
+assert list(forked) == list(serial)
+print(sum(forked[k].png == serial[k].png for k in serial), len(serial))
+"""
 
-    result = analyze(Path(_base["capture"]["path"]), tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, workers=1)
-    forked = figures.render_all(result, workers=2)
-    assert list(forked) == list(serial)
-    assert all(forked[k].png == serial[k].png for k in serial)
+
+def test_figures_drawn_in_worker_processes_are_the_same_pictures(tmp_path):
+    # the same code on the same result: the PNG bytes of every figure agree exactly (identity);
+    # run in a fresh interpreter, where no other thread stops the fork
+    import os
+    import subprocess
+    import sys
+
+    import multiprocessing
+
+    if "fork" not in multiprocessing.get_all_start_methods():
+        pytest.skip("this platform cannot fork")
+    out = subprocess.run([sys.executable, "-c", _FORKED_FIGURES, str(tmp_path)], capture_output=True, text=True,
+                         env={**os.environ, "MPLBACKEND": "Agg"}, timeout=300)
+    assert out.returncode == 0, out.stderr
+    same, total = map(int, out.stdout.split())
+    assert total == 11 and same == total
+
+
+def test_a_long_report_raises_no_open_figures_warning(analysed):
+    # matplotlib warns (RuntimeWarning "More than 20 figures have been opened") when a document holds
+    # more pages than its figure.max_open_warning; a long bursts table must not reach the terminal with it
+    import copy
+    import warnings
+
+    import matplotlib.pyplot as plt
+
+    from analyzer.report.pdf import analysis_sheets
+
+    base, _judged, pics = analysed
+    report = copy.deepcopy(base)
+    report["bursts"] = [dict(report["bursts"][k % 2], index=k) for k in range(1200)]
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        sheet = analysis_sheets(report, {}, "2026-01-01 00:00 UTC")
+    n = len(sheet.pages)
+    for f in sheet.pages:
+        plt.close(f)
+    assert n > 21
+    assert not [w for w in caught if "figures have been opened" in str(w.message)]

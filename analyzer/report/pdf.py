@@ -53,7 +53,9 @@ class Sheet:
 
     # ------------------------------------------------------------------ pages
     def new_page(self, heading: str | None = None) -> None:
-        self.fig = plt.figure(figsize=A4)
+        # the pages stay open until the document is written: a long one may have more than 20
+        with matplotlib.rc_context({"figure.max_open_warning": 0}):
+            self.fig = plt.figure(figsize=A4)
         self.pages.append(self.fig)
         self.y = MARGIN
         n = len(self.pages)
