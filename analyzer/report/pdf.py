@@ -192,7 +192,8 @@ def _summary_rows(report: dict) -> list[list[str]]:
             ["bit error rate", style.sci(b["rate"]) if b else "not counted",
              f"{style.sci(b['ci95'][0])} … {style.sci(b['ci95'][1])}" if b else ""],
             ["errors / bits", f"{b['errors']:,} / {b['bits']:,}" if b else style.DASH, ""],
-            ["pattern", f"{b['reference']}, ONE on {b['tone_for_one']}" if b else "none found", ""],
+            ["pattern", f"{b['reference']}, ONE on {b['tone_for_one']}" if b else
+             ("HDLC frames" if s.get("frames") else "none found"), ""],
             ["slips", str(b["slips"]) if b else style.DASH, ""],
             ["BER theory expects", style.sci(s["ber_theory"]), ""],
             ["implementation loss", loss, loss_ci],
@@ -288,9 +289,10 @@ def _frames_section(sh: Sheet, report: dict) -> None:
     sh.note(f"Frame error rate {style.sci(fr['error_rate'])} (95%: {style.sci(fr['ci95'][0])} … "
             f"{style.sci(fr['ci95'][1])}); theory at the measured Eb/N0 {style.sci(fr['error_rate_theory'])}.", 8.5, INK)
     if fr["implementation_loss_db_ci95"][1] is not None:
-        lo, hi = fr["implementation_loss_db_ci95"]
-        sh.note(f"Implementation loss from the frame error rate {style.fixed(fr['implementation_loss_db'], 2, 'dB')} "
-                f"(95%: {style.fixed(lo)} … {style.fixed(hi)} dB).", 8.5, INK)
+        loss, ci = style.loss_text(fr["implementation_loss_db"], fr["implementation_loss_db_ci95"],
+                                   {"errors": fr["found"] - fr["valid"]}, "frame")
+        tail = f", an {ci}" if ci.startswith("upper") else f" (95%: {ci})"
+        sh.note(f"Implementation loss from the frame error rate {loss}{tail}.", 8.5, INK)
     rows = []
     for bd in report["bursts"]:
         for f in (bd.get("frames") or {}).get("frames", []):

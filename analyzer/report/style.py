@@ -134,10 +134,10 @@ def ordered_checks(checks: list[dict]) -> list[dict]:
     return sorted(checks, key=lambda c: rank[check_state(c)])
 
 
-def loss_text(value, ci, ber: dict | None) -> tuple[str, str]:
-    """Implementation loss and its interval; with no bit errors it is only an upper bound."""
+def loss_text(value, ci, ber: dict | None, what: str = "bit") -> tuple[str, str]:
+    """Implementation loss and its interval; with no (bit or frame) errors it is only an upper bound."""
     if ber is not None and ber.get("errors") == 0 and ci and ci[1] is not None:
-        return f"<= {fixed(ci[1], 2, 'dB')}", "upper bound (no bit errors)"
+        return f"<= {fixed(ci[1], 2, 'dB')}", f"upper bound (no {what} errors)"
     if value is None:
         return DASH, ""
     lo, hi = ci if ci else (None, None)

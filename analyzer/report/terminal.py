@@ -109,9 +109,9 @@ def print_summary(report: dict, stream=None, written: list[str] | None = None, o
                      f"{style.sci(b['ci95'][0])} … {style.sci(b['ci95'][1])}"])
         rows.append(["pattern", b["reference"], f"ONE on the {b['tone_for_one']} tone, {b['slips']} slips"])
     elif s.get("frames"):
-        rows.append(["bit error rate", "not counted (the frames are the reference)", ""])
+        rows.append(["bit error rate", style.DASH, "not counted (the frames are the reference)"])
     else:
-        rows.append(["bit error rate", "not counted (no reference pattern)", ""])
+        rows.append(["bit error rate", style.DASH, "not counted (no reference pattern)"])
     fr = s.get("frames")
     if fr:
         rows.append(["frames (HDLC)", f"{fr['valid']} of {fr['found']} valid",
@@ -122,7 +122,7 @@ def print_summary(report: dict, stream=None, written: list[str] | None = None, o
         if fr["implementation_loss_db"] is not None or fr["implementation_loss_db_ci95"][1] is not None:
             rows.append(["loss from frames", *style.loss_text(fr["implementation_loss_db"],
                                                                fr["implementation_loss_db_ci95"],
-                                                               {"errors": 1})])
+                                                               {"errors": fr["found"] - fr["valid"]}, "frame")])
     rows.append(["BER theory expects", style.sci(s["ber_theory"]), ""])
     rows.append(["implementation loss", *style.loss_text(s["implementation_loss_db"],
                                                           s["implementation_loss_db_ci95"], b)])
