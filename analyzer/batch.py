@@ -12,7 +12,6 @@ spec, else 0.
 from __future__ import annotations
 
 import csv
-import datetime as _dt
 import glob
 import io
 import os
@@ -39,6 +38,11 @@ class BatchOptions:
     out: str = "reports"
     overwrite: bool = False
     block: int | None = None
+    rate: float | None = None
+    fmt: str | None = None
+    decision: str = "square-law"
+    strict: bool = False
+    formats: tuple[str, ...] = ("json", "html")
 
 
 def find_captures(items: list[str]) -> list[Path]:
@@ -89,41 +93,37 @@ def analyze_one(path: str, name: str, opts: BatchOptions) -> dict:
     """
     import numpy as np
 
-    from .commands import _inputs, link_options, report_paths, write_all
+    from .commands import _analysis_reports, _inputs, link_options, report_paths, write_all
     from .pipeline import analyze
-    from .report import json_report
+    from .report import style
     from .report.files import check_output
 
     entry = {"path": str(path), "name": name, "verdict": None, "ebn0_db": None, "ber": None, "errors": None,
-             "bits": None, "n_bursts": None, "reports": {}, "warnings": [], "error": None}
+             "bits": None, "n_bursts": None, "failed_checks": [], "reports": {}, "warnings": [], "error": None}
     try:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", CaptureWarning)
             spec, tones, baud, reference = link_options(Path(opts.spec_path) if opts.spec_path else None,
                                                         opts.tones, opts.baud, opts.reference)
             capture = Path(path)
-            paths = report_paths(capture, Path(opts.out), name, None, None)
+            paths = report_paths(capture, Path(opts.out), name, None, None, formats=tuple(opts.formats))
             inputs = _inputs(capture) + ([Path(opts.spec_path)] if opts.spec_path else [])
             for p in paths.values():
                 check_output(p, inputs, opts.overwrite)
             with np.errstate(all="ignore"):
                 # one capture per worker already keeps the cores busy: no workers within
-                result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, reference=reference,
+                result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=opts.rate,
+                                 fmt=opts.fmt, reference=reference, decision=opts.decision, strict=opts.strict,
                                  block=opts.block, workers=1)
-            report = json_report.build_report(result)
-            if spec is not None:
-                from .spec import judge
-
-                checks, verdict = judge(report, spec)
-                report = json_report.build_report(result, checks, verdict)
-            from .report.html import render_html
-
-            write_all([(paths["json"], json_report.dumps(report)), (paths["html"], render_html(result, report))])
+                report, items = _analysis_reports(result, spec, paths, 1, None)
+            write_all(items)
         s = report["summary"]
         ber = s["ber"]
         entry.update(verdict=report["verdict"], ebn0_db=s["ebn0_db"], n_bursts=s["n_bursts"],
                      ber=None if ber is None else ber["rate"], errors=None if ber is None else ber["errors"],
                      bits=None if ber is None else ber["bits"],
+                     failed_checks=[style.check_name(c["name"]) for c in style.ordered_checks(report["checks"])
+                                    if not c["pass"]],
                      reports={k: str(v) for k, v in paths.items()},
                      warnings=list(report["warnings"]))
     except InputError as exc:
@@ -164,13 +164,16 @@ def summary_report(entries: list[dict], opts: BatchOptions) -> dict:
     from . import __version__
 
     counts = {k: sum(e["verdict"] == k for e in entries) for k in ("pass", "fail", "not-judged", "error")}
-    return {"tool": {"name": "tonepair", "version": __version__},
+    return {"$schema": SCHEMA_ID, "tool": {"name": "tonepair", "version": __version__},
             "options": {"tones_hz": None if opts.tones is None else list(opts.tones), "symbol_rate_hz": opts.baud,
-                        "reference": opts.reference, "spec": opts.spec_path},
+                        "reference": opts.reference, "spec": opts.spec_path, "decision": opts.decision},
             "counts": counts, "captures": entries}
 
 
-CSV_COLUMNS = ("path", "verdict", "ebn0_db", "ber", "errors", "bits", "n_bursts", "json", "html", "error")
+SCHEMA_ID = "https://tonepair.invalid/schema/batch-1.json"
+
+CSV_COLUMNS = ("path", "verdict", "failed_checks", "ebn0_db", "ber", "errors", "bits", "n_bursts", "json", "html",
+               "error")
 
 
 def summary_csv(summary: dict) -> str:
@@ -179,30 +182,26 @@ def summary_csv(summary: dict) -> str:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(CSV_COLUMNS)
     for e in summary["captures"]:
-        row = {**e, "json": e["reports"].get("json", ""), "html": e["reports"].get("html", "")}
+        row = {**e, "json": e["reports"].get("json", ""), "html": e["reports"].get("html", ""),
+               "failed_checks": "; ".join(e.get("failed_checks") or [])}
         w.writerow(["" if row[c] is None else row[c] for c in CSV_COLUMNS])
     return buf.getvalue()
 
 
 def summary_html(summary: dict, html_path: Path) -> str:
     """An HTML table: pass/fail per capture, links to each capture's own reports."""
-    from jinja2 import Environment, PackageLoader, select_autoescape
+    from .report.html import env as html_env, generated_at
 
-    from .report.html import fmt_num, fmt_sci
-
-    env = Environment(loader=PackageLoader("analyzer", "report/templates"),
-                      autoescape=select_autoescape(["html", "j2"]), trim_blocks=True, lstrip_blocks=True)
-    env.filters["f"] = fmt_num
-    env.filters["sci"] = fmt_sci
+    env = html_env()
     here = Path(html_path).resolve().parent
 
     def link(p):
         return os.path.relpath(Path(p).resolve(), here) if p else None
 
-    rows = [{**e, "html_link": link(e["reports"].get("html")), "json_link": link(e["reports"].get("json"))}
+    rows = [{**e, "html_link": link(e["reports"].get("html")), "json_link": link(e["reports"].get("json")),
+             "pdf_link": link(e["reports"].get("pdf"))}
             for e in summary["captures"]]
-    return env.get_template("batch.html.j2").render(
-        s=summary, rows=rows, generated=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))
+    return env.get_template("batch.html.j2").render(s=summary, rows=rows, generated=generated_at())
 
 
 def exit_code(entries: list[dict]) -> int:
@@ -213,20 +212,24 @@ def exit_code(entries: list[dict]) -> int:
 
 
 def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers: int | None = None,
-              cluster: str | None = None, quiet: bool = False) -> tuple[int, dict]:
-    """Analyse every capture, write ``OUT/NAME.json|.csv|.html``; return the exit code and the summary."""
-    from .commands import write_all
+              cluster: str | None = None, quiet: bool = False,
+              summary_paths: dict[str, Path] | None = None) -> tuple[int, dict]:
+    """Analyse every capture, write the summary ``OUT/NAME.json|.csv|.html|.pdf`` (as ``opts.formats``
+    asks; the CSV always, beside the JSON or in OUT); return the exit code and the summary."""
+    import sys
+
+    from .commands import link_options, output_paths, write_all
+    from .report import style
     from .report.files import check_output
     from .report.json_report import dumps
-
-    from .commands import link_options
 
     link_options(Path(opts.spec_path) if opts.spec_path else None, opts.tones, opts.baud, opts.reference)
     paths = find_captures(items)
     out = Path(opts.out)
-    summary_paths = {k: out / f"{name}.{k}" for k in ("json", "csv", "html")}
+    spaths = output_paths(out, name, tuple(opts.formats), summary_paths)
+    spaths["csv"] = out / f"{name}.csv"
     inputs = [q for p in paths for q in _expand_inputs(p)]
-    for p in summary_paths.values():
+    for p in spaths.values():
         check_output(p, inputs, opts.overwrite)
     names = _report_names(paths)
     if cluster:
@@ -234,19 +237,35 @@ def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers
     else:
         entries = _run_local(paths, names, opts, workers or os.cpu_count() or 1)
     summary = summary_report(entries, opts)
-    write_all([(summary_paths["json"], dumps(summary)), (summary_paths["csv"], summary_csv(summary)),
-               (summary_paths["html"], summary_html(summary, summary_paths["html"]))])
-    import sys
+    files = []
+    if "json" in spaths:
+        files.append((spaths["json"], dumps(summary)))
+    files.append((spaths["csv"], summary_csv(summary)))
+    if "html" in spaths:
+        files.append((spaths["html"], summary_html(summary, spaths["html"])))
+    if "pdf" in spaths:
+        from .report.pdf import render_batch_pdf
 
+        files.append((spaths["pdf"], render_batch_pdf(summary)))
+    written = write_all(files)
     for e in entries:
         if e["error"]:
             print(f"error: {e['error']}", file=sys.stderr)
     if not quiet:
+        width = max([len(e["path"]) for e in entries] + [7])
         for e in entries:
-            line = "not analysed" if e["error"] else (f"Eb/N0 {e['ebn0_db']:.2f} dB" if e["ebn0_db"] is not None
-                                                      else "no Eb/N0")
-            print(f"{e['verdict']:<10} {e['path']}  {line}")
-        for p in summary_paths.values():
+            word = style.VERDICT_WORDS.get(e["verdict"], str(e["verdict"]))
+            if e["error"]:
+                line = e["error"]
+            else:
+                line = f"Eb/N0 {style.fixed(e['ebn0_db'], 2, 'dB')}" if e["ebn0_db"] is not None else "no Eb/N0"
+                if e["failed_checks"]:
+                    line += "; failed: " + ", ".join(e["failed_checks"])
+            print(f"{word:<12} {e['path']:<{width}}  {line}")
+        c = summary["counts"]
+        print(f"{len(entries)} captures: {c['pass']} pass, {c['fail']} fail, {c['not-judged']} not judged, "
+              f"{c['error']} not analysed")
+        for p in written:
             print(f"wrote {p}")
     return exit_code(entries), summary
 

@@ -25,6 +25,22 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=N
 _DEBUG = {"on": False}
 
 
+def _plain_arguments() -> None:
+    """Arguments shown in help by their metavar alone (``CAPTURE``), not ``{CAPTURE} <path>``."""
+    core = getattr(typer, "core", None)
+    arg = getattr(core, "TyperArgument", None)
+    if arg is None:
+        return
+    if hasattr(arg, "display_type"):
+        arg.display_type = lambda self, ctx: ""
+    if hasattr(arg, "_usage_display_name"):
+        arg._usage_display_name = lambda self: (self.display_name_raw if self.required
+                                                else f"[{self.display_name_raw}]")
+
+
+_plain_arguments()
+
+
 class RawFormat(str, Enum):
     cf32 = "cf32"
     ci16 = "ci16"
@@ -56,6 +72,18 @@ def _pair(text: str | None, what: str) -> tuple[float, float] | None:
     return vals  # type: ignore[return-value]
 
 
+_FORMATS_HELP = ("Reports to write: a comma list of json, html, pdf (default json,html). --formats json writes "
+                 "JSON only and draws no figures.")
+_OUT_HELP = "Folder for the reports."
+_DECISION_HELP = "square-law, or likelihood (weighs each envelope by its own tone energy)."
+_STRICT_HELP = "Treat a SigMF checksum mismatch as an error, not a warning."
+_RATE_HELP = "Sample rate of raw I/Q files, Hz (with --format)."
+_FORMAT_HELP = "Sample format of raw I/Q files (little-endian interleaved I/Q): cf32, ci16, ci8 or cu8."
+_REFERENCE_HELP = ("Test pattern: auto (detect an ITU-T O.150 PRBS, else HDLC frames; the default), none, frames "
+                   "(HDLC traffic: the frames with a valid FCS are the reference), PN7, PN9, PN11, PN15, PN23 "
+                   "(any case), or bits:FILE (text of 0/1, repeated).")
+
+
 def _version(value: bool):
     if value:
         typer.echo(f"tonepair {__version__}")
@@ -69,9 +97,10 @@ def _main(debug: bool = typer.Option(False, "--debug", help="Show the full trace
     _DEBUG["on"] = debug
 
 
-@app.command()
+@app.command(short_help="Analyse one capture: tones, symbol rate, Eb/N0, bit errors, loss against theory; "
+                        "JSON, HTML and PDF reports.")
 def analyze(
-    capture: Path = typer.Argument(..., help="Capture file: .sigmf-meta/.sigmf-data, raw I/Q (with --rate and "
+    capture: Path = typer.Argument(..., metavar="CAPTURE", show_default=False, help="Capture file: .sigmf-meta/.sigmf-data, raw I/Q (with --rate and "
                                               "--format), or .wav/.flac (2 channels = I/Q, 1 = audio)."),
     tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1",
                                         help="Nominal tones in Hz: baseband from the capture centre for I/Q, "
@@ -79,25 +108,24 @@ def analyze(
                                              "find the tones blind."),
     baud: Optional[float] = typer.Option(None, "--baud", metavar="R",
                                          help="Nominal symbol rate in Hz. Omit to measure it blind."),
-    rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help="Sample rate of a raw file."),
-    fmt: Optional[RawFormat] = typer.Option(None, "--format", help="Sample format of a raw file "
-                                                                  "(little-endian interleaved I/Q)."),
-    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
-                                            help="Test pattern: auto (detect an ITU-T O.150 PRBS, else HDLC "
-                                                 "frames; the default), none, frames (HDLC traffic: the frames "
-                                                 "with a valid FCS are the reference), PN7, PN9, PN11, PN15, "
-                                                 "PN23, or bits:FILE (text of 0/1, repeated)."),
-    decision: str = typer.Option("square-law", "--decision", help="square-law, or likelihood (weighs each "
-                                                                  "envelope by its own tone energy)."),
-    out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
-    name: Optional[str] = typer.Option(None, "--name", help="Base name of the report files "
-                                                            "(default: the capture's name)."),
-    json_path: Optional[Path] = typer.Option(None, "--json", help="JSON report path (default OUT/NAME.json)."),
-    html_path: Optional[Path] = typer.Option(None, "--html", help="HTML report path (default OUT/NAME.html)."),
+    rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help=_RATE_HELP),
+    fmt: Optional[RawFormat] = typer.Option(None, "--format", metavar="FORMAT", help=_FORMAT_HELP),
+    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF", help=_REFERENCE_HELP),
+    decision: str = typer.Option("square-law", "--decision", metavar="RULE", help=_DECISION_HELP),
     spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
                                         help="Judge against this spec (exit 1 if a limit fails). Its [link] "
                                              "supplies --tones/--baud/--reference when those are not given."),
-    pdf_path: Optional[Path] = typer.Option(None, "--pdf", metavar="FILE", help="Also write a PDF report."),
+    out: Path = typer.Option(Path("reports"), "--out", metavar="DIR", help=_OUT_HELP),
+    name: Optional[str] = typer.Option(None, "--name", metavar="NAME", help="Base name of the report files "
+                                                                            "(default: the capture's name)."),
+    formats: Optional[str] = typer.Option(None, "--formats", metavar="LIST", help=_FORMATS_HELP),
+    json_path: Optional[Path] = typer.Option(None, "--json", metavar="FILE",
+                                             help="Write the JSON report here instead of OUT/NAME.json."),
+    html_path: Optional[Path] = typer.Option(None, "--html", metavar="FILE",
+                                             help="Write the HTML report here instead of OUT/NAME.html."),
+    pdf_path: Optional[Path] = typer.Option(None, "--pdf", metavar="FILE",
+                                            help="Write a PDF report here (--formats json,html,pdf writes it to "
+                                                 "OUT/NAME.pdf)."),
     annotate: bool = typer.Option(False, "--annotate",
                                   help="SigMF captures: write OUT/NAME.annotated.sigmf-meta, a copy of the "
                                        "metadata with one annotation per burst (the input is not changed)."),
@@ -112,14 +140,13 @@ def analyze(
                                                    "line, in hex."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No summary or progress on the terminal."),
-    strict: bool = typer.Option(False, "--strict", help="Treat a SigMF checksum mismatch as an error, "
-                                                       "not a warning."),
-    workers: Optional[int] = typer.Option(None, "--workers", min=1,
+    strict: bool = typer.Option(False, "--strict", help=_STRICT_HELP),
+    workers: Optional[int] = typer.Option(None, "--workers", min=1, metavar="N",
                                           help="Processes that share the reading of a long capture and the "
                                                "burst analysis (default: every core; 1 = one process). Results "
                                                "are the same either way."),
 ):
-    """Analyse one capture and write JSON and HTML reports (and PDF / SigMF annotations when asked).
+    """Analyse one capture; write JSON and HTML reports (PDF and SigMF annotations when asked).
 
     \b
     Examples:
@@ -133,7 +160,7 @@ def analyze(
                            fmt=fmt.value if fmt else None, reference=reference, decision=decision, out=out,
                            name=name, json_path=json_path, html_path=html_path, overwrite=overwrite, quiet=quiet,
                            spec_path=spec, pdf_path=pdf_path, annotate=annotate, strict=strict,
-                           workers=workers, bits_path=bits, frames_path=frames_out)
+                           workers=workers, bits_path=bits, frames_path=frames_out, formats=formats)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001 - every failure becomes one error line
@@ -141,24 +168,25 @@ def analyze(
     raise typer.Exit(code)
 
 
-@app.command()
+@app.command(short_help="Write a synthetic capture of FSK bursts in noise, with its truth (demo data, tests).")
 def synth(
-    out: Path = typer.Argument(..., help="Output: NAME.sigmf-meta (or NAME for SigMF), NAME.wav or NAME.flac."),
+    out: Path = typer.Argument(..., metavar="OUT", help="Output: NAME.sigmf-meta (or NAME for SigMF), NAME.wav or "
+                                                        "NAME.flac."),
     tones: str = typer.Option("-2500,2500", "--tones", metavar="F0,F1",
                               help="Nominal tones, Hz (the steady tones a long run of one symbol settles to)."),
-    baud: float = typer.Option(5000.0, "--baud", help="Symbol rate, Hz."),
-    rate: float = typer.Option(80000.0, "--rate", help="Sample rate, Hz."),
-    ebn0: float = typer.Option(10.0, "--ebn0", help="Eb/N0 at the capture in dB: signal energy per bit as "
+    baud: float = typer.Option(5000.0, "--baud", metavar="R", help="Symbol rate, Hz."),
+    rate: float = typer.Option(80000.0, "--rate", metavar="HZ", help="Sample rate, Hz."),
+    ebn0: float = typer.Option(10.0, "--ebn0", metavar="DB", help="Eb/N0 at the capture in dB: signal energy per bit as "
                                                     "written (after any filter) over the noise density N0 "
                                                     "(in the passband; for receiver audio at the two tones)."),
-    offset: float = typer.Option(0.0, "--offset", help="Transmitter frequency error added to both tones, Hz."),
+    offset: float = typer.Option(0.0, "--offset", metavar="HZ", help="Transmitter frequency error added to both tones, Hz."),
     continuous_phase: bool = typer.Option(True, "--continuous-phase/--random-phase",
                                           help="Continuous phase (a VCO or DDS modulator; the default), or an "
                                                "independent random phase jump at every symbol boundary."),
     pulse: str = typer.Option("rect", "--pulse", metavar="SHAPE",
                               help="Frequency pulse: rect (hard keying), gaussian (with --bt; GMSK-style) or "
                                    "raised-cosine (with --transition). Example: --pulse gaussian --bt 0.3"),
-    bt: float = typer.Option(0.5, "--bt", help="Bandwidth-time product of the Gaussian pulse (0.5, 0.3 ...)."),
+    bt: float = typer.Option(0.5, "--bt", metavar="BT", help="Bandwidth-time product of the Gaussian pulse (0.5, 0.3 ...)."),
     transition: float = typer.Option(0.5, "--transition", metavar="SYMBOLS",
                                      help="Length of each raised-cosine change of tone, in symbols (1 = the "
                                           "whole symbol; at most 1 keeps the tone steady mid-symbol)."),
@@ -186,23 +214,32 @@ def synth(
     tilt: float = typer.Option(0.0, "--tilt", metavar="DB",
                                help="Audio: level of the upper tone over the lower one, dB, on signal and noise "
                                     "(negative: upper weaker). Example: --receiver-audio --tilt -4"),
-    start: float = typer.Option(1000.0, "--start", help="Fractional sample where the first symbol begins."),
-    rate_error: float = typer.Option(0.0, "--rate-error", help="Symbol-rate error, ppm."),
-    bursts: int = typer.Option(1, "--bursts", help="Number of bursts."),
-    symbols: int = typer.Option(2000, "--symbols", help="Symbols per burst."),
-    gap: float = typer.Option(4000.0, "--gap", help="Samples of noise between bursts."),
-    pattern: str = typer.Option("PN9", "--pattern", help="ITU-T O.150 pattern: PN7, PN9, PN11, PN15, PN23."),
-    framing: str = typer.Option("none", "--framing", help="none (the --pattern), or hdlc: HDLC frames of random "
+    start: float = typer.Option(1000.0, "--start", metavar="SAMPLE",
+                                help="Fractional sample where the first symbol begins."),
+    baud_error: float = typer.Option(0.0, "--baud-error", metavar="PPM",
+                                     help="Symbol-rate error of the transmitter, ppm."),
+    rate_error: Optional[float] = typer.Option(None, "--rate-error", hidden=True,
+                                               help="Old name of --baud-error."),
+    bursts: int = typer.Option(1, "--bursts", metavar="N", help="Number of bursts."),
+    symbols: int = typer.Option(2000, "--symbols", metavar="N", help="Symbols per burst."),
+    gap: float = typer.Option(4000.0, "--gap", metavar="SAMPLES", help="Samples of noise between bursts."),
+    pattern: str = typer.Option("PN9", "--reference", "--pattern", metavar="REF",
+                                help="Test pattern sent, ITU-T O.150: PN7, PN9, PN11, PN15, PN23 (any case; as "
+                                     "analyze --reference; --pattern is the old name)."),
+    framing: str = typer.Option("none", "--framing", metavar="FRAMING", help="none (the --reference), or hdlc: HDLC frames of random "
                                                           "payloads (NRZI, zero-bit insertion, X.25 FCS), flags "
                                                           "before, between and after them."),
     frame_bytes: int = typer.Option(32, "--frame-bytes", metavar="N", help="With --framing hdlc: payload bytes "
                                                                            "of each frame (the FCS is added)."),
     amplitudes: str = typer.Option("1,1", "--amplitudes", metavar="A0,A1", help="Relative tone amplitudes."),
-    ramp: float = typer.Option(0.0, "--ramp", help="Power ramp at each burst edge, symbols."),
-    datatype: str = typer.Option("cf32_le", "--datatype", help="SigMF datatype: cf32_le or ci16_le."),
+    ramp: float = typer.Option(0.0, "--ramp", metavar="SYMBOLS", help="Power ramp at each burst edge, symbols."),
+    sample_format: str = typer.Option("cf32", "--format", metavar="FORMAT",
+                                      help="Sample format of a SigMF capture: cf32 or ci16 (little-endian I/Q, "
+                                           "as analyze --format)."),
+    datatype: Optional[str] = typer.Option(None, "--datatype", hidden=True, help="Old name of --format."),
     audio: bool = typer.Option(False, "--audio", help="Write mono real audio (tones in audio Hz)."),
-    centre: Optional[float] = typer.Option(None, "--centre", help="RF centre frequency to record, Hz."),
-    seed: int = typer.Option(1, "--seed", help="Random seed."),
+    centre: Optional[float] = typer.Option(None, "--centre", metavar="HZ", help="RF centre frequency to record, Hz."),
+    seed: int = typer.Option(1, "--seed", metavar="N", help="Random seed."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace files that exist."),
 ):
     """Write a synthetic capture of FSK bursts in noise, with its truth (demo data and tests).
@@ -219,10 +256,15 @@ def synth(
     try:
         if deviation is not None and index is not None:
             raise InputError("give --deviation or --index, not both", None, "--index H means deviation H*baud/2")
+        fmt = (datatype or sample_format).strip().lower().removesuffix("_le")
+        if fmt not in ("cf32", "ci16"):
+            raise InputError(f"unknown sample format {datatype or sample_format!r}", None,
+                             "--format takes cf32 or ci16 (see tonepair synth --help)")
         path = run_synth(out=out, tones=_pair(tones, "--tones"), baud=baud, rate=rate, ebn0=ebn0, offset=offset,
-                         continuous_phase=continuous_phase, start=start, rate_error=rate_error, bursts=bursts,
-                         symbols=symbols, gap=gap, pattern=pattern, amplitudes=_pair(amplitudes, "--amplitudes"),
-                         ramp=ramp, datatype=datatype, audio=audio, centre=centre, seed=seed, overwrite=overwrite,
+                         continuous_phase=continuous_phase, start=start,
+                         rate_error=baud_error if rate_error is None else rate_error, bursts=bursts,
+                         symbols=symbols, gap=gap, pattern=pattern.strip().upper(),
+                         amplitudes=_pair(amplitudes, "--amplitudes"), ramp=ramp, datatype=f"{fmt}_le", audio=audio, centre=centre, seed=seed, overwrite=overwrite,
                          framing=framing, frame_bytes=frame_bytes,
                          pulse=pulse, bt=bt, transition=transition,
                          deviation=(0.5 * index * baud if index is not None else deviation), drift=drift,
@@ -233,28 +275,49 @@ def synth(
     typer.echo(f"wrote {path}")
 
 
-@app.command()
+@app.command(short_help="Fit one implementation loss across captures of one link at several levels.")
 def sweep(
-    captures: list[Path] = typer.Argument(..., help="Captures of one link at several levels."),
+    captures: list[Path] = typer.Argument(..., metavar="CAPTURE...", show_default=False, help="Captures of one link at several levels."),
     tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
     baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate, Hz."),
+    rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help=_RATE_HELP),
+    fmt: Optional[RawFormat] = typer.Option(None, "--format", metavar="FORMAT", help=_FORMAT_HELP),
     reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
-                                            help="Test pattern (default auto): none is not useful here."),
+                                            help=_REFERENCE_HELP + " none is of no use here."),
+    decision: str = typer.Option("square-law", "--decision", metavar="RULE", help=_DECISION_HELP),
     spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
                                         help="Take --tones/--baud/--reference from the spec's [link]."),
-    out: Path = typer.Option(Path("reports"), "--out", help="Folder for the reports."),
-    name: str = typer.Option("sweep", "--name", help="Base name of the report files."),
-    target_ber: float = typer.Option(1e-3, "--target-ber", help="BER at which to state the Eb/N0 needed."),
+    out: Path = typer.Option(Path("reports"), "--out", metavar="DIR", help=_OUT_HELP),
+    name: str = typer.Option("sweep", "--name", metavar="NAME", help="Base name of the report files."),
+    formats: Optional[str] = typer.Option(None, "--formats", metavar="LIST", help=_FORMATS_HELP),
+    json_path: Optional[Path] = typer.Option(None, "--json", metavar="FILE",
+                                             help="Write the JSON report here instead of OUT/NAME.json."),
+    html_path: Optional[Path] = typer.Option(None, "--html", metavar="FILE",
+                                             help="Write the HTML report here instead of OUT/NAME.html."),
+    pdf_path: Optional[Path] = typer.Option(None, "--pdf", metavar="FILE", help="Write a PDF report here."),
+    target_ber: float = typer.Option(1e-3, "--target-ber", metavar="BER",
+                                     help="BER at which to state the Eb/N0 needed."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No summary on the terminal."),
+    strict: bool = typer.Option(False, "--strict", help=_STRICT_HELP),
+    workers: Optional[int] = typer.Option(None, "--workers", min=1, metavar="N",
+                                          help="Processes that share each capture's analysis (default: every "
+                                               "core; 1 = one process). Results are the same either way."),
 ):
-    """Fit one implementation loss across captures at several levels; write JSON, HTML and PDF."""
+    """Fit one implementation loss across captures at several levels; write JSON and HTML (PDF when asked).
+
+    \b
+    Example:
+      tonepair sweep levels/*.sigmf-meta --reference PN9 --formats json,html,pdf
+    """
     from .commands import run_sweep
 
     try:
         code = run_sweep(captures=captures, tones=_pair(tones, "--tones"), baud=baud, reference=reference,
                          spec_path=spec, out=out, name=name, target_ber=target_ber, overwrite=overwrite,
-                         quiet=quiet)
+                         quiet=quiet, rate=rate, fmt=fmt.value if fmt else None, decision=decision, strict=strict,
+                         workers=workers, formats=formats, json_path=json_path, html_path=html_path,
+                         pdf_path=pdf_path)
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001
@@ -262,35 +325,55 @@ def sweep(
     raise typer.Exit(code)
 
 
-@app.command()
+@app.command(short_help="Analyse many captures in parallel; one summary as JSON, CSV and HTML.")
 def batch(
     captures: list[str] = typer.Argument(..., metavar="DIR|GLOB|CAPTURE...",
                                          help="Folders (their .sigmf-meta/.wav/.flac files), glob patterns or "
                                               "capture files."),
     tones: Optional[str] = typer.Option(None, "--tones", metavar="F0,F1", help="Nominal tones, Hz."),
     baud: Optional[float] = typer.Option(None, "--baud", metavar="R", help="Nominal symbol rate, Hz."),
-    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF",
-                                            help="Test pattern: auto (default), none, PN7 ... PN23, bits:FILE."),
+    rate: Optional[float] = typer.Option(None, "--rate", metavar="HZ", help=_RATE_HELP),
+    fmt: Optional[RawFormat] = typer.Option(None, "--format", metavar="FORMAT", help=_FORMAT_HELP),
+    reference: Optional[str] = typer.Option(None, "--reference", metavar="REF", help=_REFERENCE_HELP),
+    decision: str = typer.Option("square-law", "--decision", metavar="RULE", help=_DECISION_HELP),
     spec: Optional[Path] = typer.Option(None, "--spec", metavar="SPEC.toml",
                                         help="Judge every capture against this spec."),
-    out: Path = typer.Option(Path("reports"), "--out", help="Folder for each capture's reports and the summary."),
-    name: str = typer.Option("batch", "--name", help="Base name of the summary files (NAME.json/.csv/.html)."),
-    workers: Optional[int] = typer.Option(None, "--workers", min=1,
+    out: Path = typer.Option(Path("reports"), "--out", metavar="DIR",
+                             help="Folder for each capture's reports and the summary."),
+    name: str = typer.Option("batch", "--name", metavar="NAME",
+                             help="Base name of the summary files (the CSV is always written)."),
+    formats: Optional[str] = typer.Option(None, "--formats", metavar="LIST",
+                                          help=_FORMATS_HELP + " Applies to each capture's reports and the summary."),
+    json_path: Optional[Path] = typer.Option(None, "--json", metavar="FILE",
+                                             help="Write the summary JSON here instead of OUT/NAME.json."),
+    html_path: Optional[Path] = typer.Option(None, "--html", metavar="FILE",
+                                             help="Write the summary HTML here instead of OUT/NAME.html."),
+    pdf_path: Optional[Path] = typer.Option(None, "--pdf", metavar="FILE",
+                                            help="Write a summary PDF here (and a PDF for each capture)."),
+    workers: Optional[int] = typer.Option(None, "--workers", min=1, metavar="N",
                                           help="Processes of the local pool (default: the number of CPUs)."),
     cluster: Optional[str] = typer.Option(None, "--cluster", metavar="ADDRESS",
                                           help="Run on this Dask scheduler instead of a local pool "
                                                "(needs the 'cluster' extra)."),
     overwrite: bool = typer.Option(False, "--overwrite", help="Replace report files that exist."),
     quiet: bool = typer.Option(False, "--quiet", help="No per-capture lines on the terminal."),
+    strict: bool = typer.Option(False, "--strict", help=_STRICT_HELP),
 ):
-    """Analyse many captures in parallel; one summary as JSON, CSV and HTML (exit 2 if any capture
-    could not be analysed, else 1 if any failed its spec)."""
+    """Analyse many captures in parallel; one summary as JSON, CSV and HTML.
+
+    Exit code 2 if any capture could not be analysed, else 1 if any failed its spec, else 0.
+    """
     from .batch import BatchOptions, run_batch
+    from .commands import parse_formats
 
     try:
+        overrides = {"json": json_path, "html": html_path, "pdf": pdf_path}
         opts = BatchOptions(tones=_pair(tones, "--tones"), baud=baud, reference=reference,
-                            spec_path=str(spec) if spec else None, out=str(out), overwrite=overwrite)
-        code, _ = run_batch(captures, opts, name=name, workers=workers, cluster=cluster, quiet=quiet)
+                            spec_path=str(spec) if spec else None, out=str(out), overwrite=overwrite,
+                            rate=rate, fmt=fmt.value if fmt else None, decision=decision, strict=strict,
+                            formats=parse_formats(formats, overrides))
+        code, _ = run_batch(captures, opts, name=name, workers=workers, cluster=cluster, quiet=quiet,
+                            summary_paths={k: v for k, v in overrides.items() if v is not None})
     except typer.Exit:
         raise
     except Exception as exc:  # noqa: BLE001

@@ -33,7 +33,7 @@ from .errors import InputError
 
 __all__ = ["Link", "Limits", "Spec", "parse_spec", "load_spec", "judge", "LIMIT_UNITS"]
 
-_HINT = "see the spec file format in analyzer/spec.py"
+_HINT = "see \"Spec files\" in README.md for the format"
 
 #: Unit of each limit (also the ``unit`` of its check).
 LIMIT_UNITS = {

@@ -71,6 +71,9 @@ def _atomic(path: Path, fill) -> None:
     """Call ``fill(tmp_path)`` on a temporary file beside ``path``, then move it over ``path``."""
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    mask = os.umask(0)
+    os.umask(mask)
+    os.fchmod(fd, 0o666 & ~mask)              # a temporary file is made 0600; a capture is not private
     os.close(fd)
     try:
         fill(Path(tmp))

@@ -97,6 +97,16 @@ def test_batch_spec_failure_exits_1(captures, tmp_path, run_cli):
         if abs(e["ebn0_db"] - limit) > 0.6:
             assert e["verdict"] == ("pass" if e["ebn0_db"] >= limit else "fail")
     assert sum(e["verdict"] == "fail" for e in summary["captures"]) >= 1
+    # a failed capture names its failed check (the spec's one limit, by its readable name)
+    for e in summary["captures"]:
+        assert e["failed_checks"] == (["Eb/N0"] if e["verdict"] == "fail" else [])
+    # the summary names its schema and holds to it (jsonschema, a general-purpose validator)
+    import jsonschema
+    from importlib.resources import files
+
+    schema = json.loads(files("analyzer").joinpath("report/batch.schema.json").read_text())
+    assert summary["$schema"] == schema["$id"]
+    jsonschema.validate(summary, schema)
 
 
 def test_dask_local_cluster_gives_the_process_pool_numbers(captures, tmp_path):

@@ -85,3 +85,42 @@ def test_output_equal_to_input_is_refused(capture, tmp_path):
                             "--json", str(capture)])
     assert r.exit_code == 2
     assert "same file as an input" in r.stderr
+
+
+def test_reports_and_captures_respect_the_umask(tmp_path, run_cli):
+    # POSIX open(2): a new file gets mode 0666 & ~umask (a temporary file's private 0600 must not leak)
+    import os
+    import stat
+
+    old = os.umask(0o027)
+    try:
+        res = run_cli("synth", tmp_path / "u.sigmf-meta", "--symbols", "400")
+        assert res.exit_code == 0, res.output
+        res = run_cli("analyze", tmp_path / "u.sigmf-meta", "--out", tmp_path / "o", "--quiet")
+        assert res.exit_code == 0, res.output
+    finally:
+        os.umask(old)
+    for p in [tmp_path / "u.sigmf-meta", tmp_path / "u.sigmf-data", *sorted((tmp_path / "o").iterdir())]:
+        assert stat.S_IMODE(p.stat().st_mode) == 0o640, p
+
+
+def test_synth_option_names_match_analyze(tmp_path, run_cli):
+    # SigMF core:datatype names (SigMF specification): ci16_le is little-endian 16-bit complex integers
+    import json
+
+    res = run_cli("synth", tmp_path / "a.sigmf-meta", "--reference", "pn11", "--format", "ci16", "--baud-error",
+                  "40", "--symbols", "300")
+    assert res.exit_code == 0, res.output
+    meta = json.loads((tmp_path / "a.sigmf-meta").read_text())
+    assert meta["global"]["core:datatype"] == "ci16_le"
+    # the old names still work
+    res = run_cli("synth", tmp_path / "b.sigmf-meta", "--pattern", "PN7", "--datatype", "cf32_le", "--rate-error",
+                  "20", "--symbols", "300")
+    assert res.exit_code == 0, res.output
+    assert json.loads((tmp_path / "b.sigmf-meta").read_text())["global"]["core:datatype"] == "cf32_le"
+    # analyze takes the pattern name in any case and finds the pattern synth sent
+    res = run_cli("analyze", tmp_path / "a.sigmf-meta", "--reference", "pn11", "--out", tmp_path / "o",
+                  "--formats", "json", "--quiet")
+    assert res.exit_code == 0, res.output
+    rep = json.loads((tmp_path / "o" / "a.json").read_text())
+    assert rep["summary"]["ber"]["reference"] == "PN11"

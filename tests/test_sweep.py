@@ -40,9 +40,18 @@ def test_sweep_of_four_levels_has_no_loss(tmp_path, make_capture, run_cli):
     caps = [make_capture(name=f"lvl{e}", ebn0_db=float(e), symbols_per_burst=3000, seed=e) for e in (4, 6, 8, 10)]
     out = tmp_path / "out"
     res = run_cli("sweep", *caps, "--tones", "-2500,2500", "--baud", "5000", "--reference", "PN9",
-                  "--out", out, "--quiet")
+                  "--out", out, "--formats", "json,html,pdf", "--quiet")
     assert res.exit_code == 0, res.output
     rep = json.loads((out / "sweep.json").read_text())
+    # the file names its schema and holds to it (jsonschema, a general-purpose validator)
+    import jsonschema
+    from importlib.resources import files
+
+    schema = json.loads(files("analyzer").joinpath("report/sweep.schema.json").read_text())
+    assert rep["$schema"] == schema["$id"]
+    jsonschema.validate(rep, schema)
+    levels = [p["ebn0_db"] for p in rep["points"]]
+    assert levels == sorted(levels)                                     # listed by level, lowest first
     # an ideal link: implementation loss within 0.3 dB of zero against 1/2 exp(-Eb/2N0)
     assert rep["implementation_loss_db"] == pytest.approx(0.0, abs=0.3)
     assert rep["target_ber"] == 1e-3

@@ -38,6 +38,13 @@ def check_output(path: Path, inputs: list[Path], overwrite: bool) -> None:
         raise InputError("the output path is a folder", p, "name a file for --json/--html")
 
 
+def umask_mode() -> int:
+    """The mode a new file gets here (0666 less the process umask), as any file a user makes."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def write_atomic(path: Path, data: bytes | str) -> Path:
     """Write ``data`` to a temporary file beside ``path``, then rename it into place."""
     p = Path(path)
@@ -53,6 +60,7 @@ def write_atomic(path: Path, data: bytes | str) -> Path:
         raise InputError(f"cannot write in the output folder ({exc.strerror or exc})", p.parent,
                          "choose a writable --out folder") from None
     try:
+        os.fchmod(fd, umask_mode())           # a temporary file is made 0600; the report is not private
         with os.fdopen(fd, "wb") as fh:
             fh.write(raw)
         os.replace(tmp, p)

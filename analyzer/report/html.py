@@ -1,4 +1,8 @@
-"""Self-contained HTML report (Jinja2 template, figures embedded as PNG)."""
+"""Self-contained HTML report (Jinja2 template, figures embedded as PNG).
+
+The words, colours and number formats are the house style of
+:mod:`analyzer.report.style`, shared with the terminal and the PDF.
+"""
 
 from __future__ import annotations
 
@@ -6,54 +10,49 @@ import datetime as _dt
 
 from jinja2 import Environment, PackageLoader, select_autoescape
 
-from . import figures
+from . import style
 
 
-def _env() -> Environment:
-    env = Environment(loader=PackageLoader("analyzer", "report/templates"),
-                      autoescape=select_autoescape(["html", "j2"]), trim_blocks=True, lstrip_blocks=True)
-    env.filters["f"] = fmt_num
-    env.filters["sci"] = fmt_sci
-    env.filters["g"] = fmt_auto
-    return env
+def env() -> Environment:
+    """The template environment of every HTML page (analysis, sweep, batch), with the shared filters."""
+    e = Environment(loader=PackageLoader("analyzer", "report/templates"),
+                    autoescape=select_autoescape(["html", "j2"]), trim_blocks=True, lstrip_blocks=True)
+    e.filters["f"] = fmt_num
+    e.filters["sci"] = fmt_sci
+    e.filters["g"] = fmt_auto
+    e.globals.update(style=style, STATES=style.STATES, VERDICT_WORDS=style.VERDICT_WORDS)
+    return e
+
+
+_env = env
 
 
 def fmt_num(v, digits: int = 2, unit: str = "") -> str:
     """A number for a table cell; an en dash when not measured."""
-    if v is None:
-        return "–"
-    s = f"{v:,.{digits}f}"
-    return f"{s} {unit}".strip()
+    return style.fixed(v, digits, unit)
 
 
 def fmt_auto(v) -> str:
-    """Fixed point for ordinary values, scientific for small ones (a BER)."""
+    """Fixed point for ordinary values, scientific for small ones (a p-value)."""
     if v is None:
-        return "–"
+        return style.DASH
     return fmt_sci(v) if v != 0 and abs(v) < 0.01 else fmt_num(v, 3)
 
 
 def fmt_sci(v, digits: int = 2) -> str:
-    if v is None:
-        return "–"
-    if v == 0:
-        return "0"
-    return f"{v:.{digits}e}"
+    return style.sci(v, digits)
 
 
-def render_html(result, report: dict) -> str:
-    """The report page as one HTML string."""
-    figs = {
-        "spectrum": figures.to_png_base64(figures.spectrum(result)),
-        "spectrogram": figures.to_png_base64(figures.spectrogram(result)),
-        "envelopes": [figures.to_png_base64(figures.envelope_histograms(result, i))
-                      for i in range(min(len(result.bursts), 4))],
-        "ber": figures.to_png_base64(figures.ber_curve(result)),
-        "diag": [{"scatter": figures.to_png_base64(figures.iq_scatter(result, i)),
-                  "trend": figures.to_png_base64(figures.ebn0_trend(result, i)),
-                  "loss": figures.to_png_base64(figures.loss_bars(result, i))}
-                 for i in range(min(len(result.bursts), 4))],
-    }
-    tmpl = _env().get_template("report.html.j2")
-    return tmpl.render(r=report, figs=figs,
-                       generated=_dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"))
+def generated_at() -> str:
+    return _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+
+
+def render_html(result, report: dict, pics: dict | None = None) -> str:
+    """The report page as one HTML string; ``pics`` are the figures already drawn (drawn here if not given)."""
+    from . import figures
+
+    pics = figures.render_all(result) if pics is None else pics
+    figs = {k: p.base64() for k, p in pics.items()}
+    tmpl = env().get_template("report.html.j2")
+    return tmpl.render(r=report, figs=figs, generated=generated_at(),
+                       checks=style.ordered_checks(report.get("checks") or []))
