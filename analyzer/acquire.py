@@ -46,7 +46,7 @@ from .branches import (EnergyTrace, SymbolGrid, energy_trace, oscillator, slidin
 
 __all__ = [
     "PowerTrace", "TraceFrames", "BurstSpan", "band_power_frames", "find_bursts", "quiet_floor",
-    "estimate_symbol_timing", "trim_to_burst", "tone_difference", "grid_fit", "refine_tones", "steady_symbols", "transition_deficit",
+    "estimate_symbol_timing", "trim_to_burst", "tone_difference", "grid_fit", "peak_tone_pairs", "refine_tones", "steady_symbols", "transition_deficit",
     "segment_symbols",
 ]
 
@@ -1270,6 +1270,40 @@ def occupied_band(cells_power: np.ndarray, sample_rate_hz: float, positive_only:
     lo = max(min(g[0] for g in keep) - 1, 0)
     hi_i = min(max(g[1] for g in keep) + 1, cells - 1)
     return float(edges[lo]), float(edges[hi_i + 1])
+
+
+def peak_tone_pairs(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float], n_peaks: int = 4,
+                    min_separation_hz: float = 150.0) -> list[tuple[float, float]]:
+    """Candidate tone pairs from the strongest peaks of the mean spectrum within ``band_hz``.
+
+    The periodogram of 1024-sample Hann frames (``scipy.signal.welch``) of the
+    analytic samples, smoothed over ``min_separation_hz / 2``; its ``n_peaks``
+    strongest local maxima give every pair at least ``min_separation_hz``
+    apart, strongest pairs first.  Candidates only: the caller keeps the pair
+    whose symbol-rate line stands out most.
+    """
+    from scipy.signal import welch
+
+    n = int(min(1024, 2 ** np.floor(np.log2(max(len(x), 16)))))
+    f, p = welch(x, fs=sample_rate_hz, nperseg=n, return_onesided=False, detrend=False)
+    sel = (f >= band_hz[0]) & (f <= band_hz[1])
+    f, p = f[sel], p[sel]
+    order = np.argsort(f)
+    f, p = f[order], p[order]
+    if f.size < 5:
+        return []
+    k = max(1, int(round(0.5 * min_separation_hz / (sample_rate_hz / n) / 2)))
+    sm = np.convolve(p, np.ones(2 * k + 1) / (2 * k + 1), mode="same")
+    is_max = np.r_[False, (sm[1:-1] >= sm[:-2]) & (sm[1:-1] > sm[2:]), False]
+    peaks = np.flatnonzero(is_max)
+    peaks = peaks[np.argsort(sm[peaks])[::-1][:n_peaks]]
+    pairs = []
+    for a in range(len(peaks)):
+        for b in range(a + 1, len(peaks)):
+            lo, hi = sorted((float(f[peaks[a]]), float(f[peaks[b]])))
+            if hi - lo >= min_separation_hz:
+                pairs.append((lo, hi))
+    return pairs
 
 
 def band_limit(x: np.ndarray, sample_rate_hz: float, band_hz: tuple[float, float]) -> np.ndarray:

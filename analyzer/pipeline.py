@@ -343,6 +343,9 @@ ENERGY_REUSE_TONE_SHIFT = 0.01
 #: both tones by less than this fraction of the symbol rate (the tone
 #: estimate's own spread at 8 dB and 1000 symbols is about 0.5%).
 SETTLED_TONE_SHIFT = 0.01
+#: Most passes of that loop (a blind start from a spectral peak may sit a quarter
+#: of the spacing off the tone; each pass closes most of the distance).
+DD_PASSES = 4
 
 
 def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: branches.SymbolGrid,
@@ -438,7 +441,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     if not synced:
         # no pattern yet: alternate tones and timing from the symbols that carried
         # them (decision-directed) while the tones still move, then look again
-        for _ in range(2):
+        for _ in range(DD_PASSES):
             before = tones
             tones = acquire.refine_tones(branches.symbol_rows(x, x_start, grid), dec, fs, tones)
             grid = retime(grid, tones, dec)
@@ -745,50 +748,98 @@ def _thin_spectrogram(sg: np.ndarray, max_frames: int = 600) -> np.ndarray:
     return sg[:n * k].reshape(n, k, -1).mean(axis=1)
 
 
-def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path, start: int):
-    """Tones, symbol rate and its line quality to start a region from: hints, or blind estimates."""
-    tones = opts.tones_hz if opts.tones_hz is not None else acquire.blind_tones(x, fs, band)
-    rs = opts.symbol_rate_hz
-    quality = float("inf")
-    if rs is None:
-        trans = acquire.tone_transitions(x, fs, tones)        # shared by every rate tried below
-        rs = acquire.blind_symbol_rate(x, fs, tones, transitions=trans)
-        if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
-            warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
-                 "give --baud to analyse it")
-            return None
-        # the transition line can lock to a harmonic or a spur on weak bursts:
-        # keep, among the rate and its sub-multiples, the one whose timing line
-        # (see acquire.symbol_timing) stands out most
-        # (the energy trace is periodic at the symbol rate, so its harmonics carry
-        # lines too -- at high SNR about as strong: the lowest rate whose line is
-        # at least half as strong as the strongest is the symbol rate)
-        tried = []
-        cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones, transitions=trans)
-        energies: dict[int, branches.EnergyTrace] = {}      # one per window length
-        for cand in cands:
-            if fs / cand > len(x) / 16:
-                continue
-            w = int(np.floor(fs / cand))
-            if w not in energies:
-                energies[w] = branches.energy_trace(x, 0, w, tones, fs)
-            tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
-                                               transitions=trans))
-        top = max(t.line_snr for t in tried)
-        strongest = max(tried, key=lambda t: t.line_snr).symbol_rate_hz
-        # the rate, not a harmonic: the lowest rate whose line is at least half the strongest,
-        # or a sub-multiple R/2..R/4 of the strongest whose own line still stands out clearly
-        # (short windows can make a harmonic's line several times the symbol rate's own)
-        best = min((t for t in tried if t.line_snr >= 0.5 * top or (
-            t.line_snr >= max(HARMONIC_LINE_SHARE * top, 2 * BLIND_MIN_LINE_QUALITY)
-            and _sub_multiple(strongest, t.symbol_rate_hz))), key=lambda t: t.symbol_rate_hz)
-        rs, quality = best.symbol_rate_hz, best.line_snr
-        if quality < BLIND_MIN_LINE_QUALITY:
-            warn(f"{path}: the candidate burst near sample {start} ({len(x)} samples) shows no symbol-rate "
-                 f"line (quality {quality:.1f}, below {BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
-                 "unkeyed carrier, not analysed; give --tones and --baud to analyse it anyway")
-            return None
+def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path, start: int,
+                    kind: str = "iq"):
+    """Tones, symbol rate and its line quality to start a region from: hints, or blind estimates.
+
+    Blind on receiver audio, the tone pairs from the strongest peaks of the
+    region's spectrum are tried beside the modes of its instantaneous frequency,
+    and among the pairs with a symbol-rate line the one that keys most clearly
+    between its two tones (:func:`_keying_contrast`) is kept: an FM receiver's noise fills the
+    voice band, shaped by its filters, and can pull the frequency modes or
+    raise a peak of its own.
+    """
+    if opts.tones_hz is not None:
+        pairs = [tuple(opts.tones_hz)]
+    else:
+        pairs = [acquire.blind_tones(x, fs, band)]
+        if kind == "audio":
+            pairs += acquire.peak_tone_pairs(x, fs, band)
+    found, score = None, -1.0
+    for tones in pairs:
+        got = _blind_rate(x, fs, tones) if opts.symbol_rate_hz is None else (float(opts.symbol_rate_hz),
+                                                                              float("inf"))
+        if got is None:
+            continue
+        # among pairs with a symbol-rate line, the one that keys most clearly between its tones
+        sc = _keying_contrast(x, fs, tones, got[0]) if len(pairs) > 1 and got[1] >= BLIND_MIN_LINE_QUALITY \
+            else 0.0
+        if found is None or sc > score:
+            found, score = (tones, *got), sc
+    if found is None:
+        warn(f"{path}: no symbol rate could be found in the burst near sample {start}; "
+             "give --baud to analyse it")
+        return None
+    tones, rs, quality = found
+    if quality < BLIND_MIN_LINE_QUALITY:
+        warn(f"{path}: the candidate burst near sample {start} ({len(x)} samples) shows no symbol-rate "
+             f"line (quality {quality:.1f}, below {BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
+             "unkeyed carrier, not analysed; give --tones and --baud to analyse it anyway")
+        return None
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
+
+
+def _keying_contrast(x: np.ndarray, fs: float, tones, rate: float) -> float:
+    """``sum ||z1|^2 - |z0|^2| / sum (|z0|^2 + |z1|^2)`` over one-symbol windows at every start.
+
+    Near 1 when each window holds one tone or the other (the two tones of an FSK
+    burst, however unequal); lower when one template sits on noise that fills
+    every window (a peak of a receiver's shaped noise).
+    """
+    w = int(np.floor(fs / rate))
+    if w < 2 or len(x) < 4 * w:
+        return 0.0
+    n = len(x) - w + 1
+    c = branches.window_energy(x, 0, 0, n, w, tones, fs, metric="contrast")
+    e = branches.window_energy(x, 0, 0, n, w, tones, fs)
+    total = float(np.sum(e))
+    return float(np.sum(c) / total) if total > 0 else 0.0
+
+
+def _blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
+    """Symbol rate and its timing-line quality with no hint, for the tones ``tones``; None if none."""
+    trans = acquire.tone_transitions(x, fs, tones)        # shared by every rate tried below
+    rs = acquire.blind_symbol_rate(x, fs, tones, transitions=trans)
+    if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
+        return None
+    # the transition line can lock to a harmonic or a spur on weak bursts:
+    # keep, among the rate and its sub-multiples, the one whose timing line
+    # (see acquire.symbol_timing) stands out most
+    # (the energy trace is periodic at the symbol rate, so its harmonics carry
+    # lines too -- at high SNR about as strong: the lowest rate whose line is
+    # at least half as strong as the strongest is the symbol rate)
+    tried = []
+    cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones, transitions=trans)
+    energies: dict[int, branches.EnergyTrace] = {}      # one per window length
+    for cand in cands:
+        if fs / cand > len(x) / 16:
+            continue
+        w = int(np.floor(fs / cand))
+        if w not in energies:
+            energies[w] = branches.energy_trace(x, 0, w, tones, fs)
+        tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
+                                           transitions=trans))
+    if not tried:
+        return None
+    top = max(t.line_snr for t in tried)
+    strongest = max(tried, key=lambda t: t.line_snr).symbol_rate_hz
+    # the rate, not a harmonic: the lowest rate whose line is at least half the strongest,
+    # or a sub-multiple R/2..R/4 of the strongest whose own line still stands out clearly
+    # (short windows can make a harmonic's line several times the symbol rate's own)
+    best = min((t for t in tried if t.line_snr >= 0.5 * top or (
+        t.line_snr >= max(HARMONIC_LINE_SHARE * top, 2 * BLIND_MIN_LINE_QUALITY)
+        and _sub_multiple(strongest, t.symbol_rate_hz))), key=lambda t: t.symbol_rate_hz)
+    return float(best.symbol_rate_hz), float(best.line_snr)
 
 
 #: A sub-multiple R/k (k = 2..4) of the rate with the strongest timing line is taken
@@ -877,7 +928,8 @@ def _region_bursts(ctx: _RegionContext, a: int, b: int, start, noise_var: float)
 
 def _region_start(ctx: _RegionContext, a: int, b: int, band):
     """Blind starting point (tones, rate, line quality) of the region ``[a, b)``, or None."""
-    return _starting_point(ctx.read(a, b - a).astype(np.complex128), ctx.fs, band, ctx.opts, ctx.path, a)
+    return _starting_point(ctx.read(a, b - a).astype(np.complex128), ctx.fs, band, ctx.opts, ctx.path, a,
+                           ctx.kind)
 
 
 #: Fewest busy regions for which worker processes pay for themselves (forking
