@@ -442,8 +442,9 @@ def ebn0_trend(result, burst_index: int = 0):
 def loss_bars(result, burst_index: int = 0):
     """The implementation loss split into parts, as horizontal bars (dB).
 
-    The template-mismatch bar stands apart: it is not part of the total (the
-    measured Eb/N0 already leaves out what the template fails to collect).
+    The template-mismatch bar stands apart: it is one view of the shaping
+    part (the energy the rectangular template fails to collect), not a further
+    term of the total.
     """
     b = result.bursts[burst_index]
     lp = b.loss_parts
@@ -451,9 +452,10 @@ def loss_bars(result, burst_index: int = 0):
     if lp is not None:
         for n, v, c in (("tone correlation", lp.correlation_db, TONE_COLOURS[0]),
                         ("tone imbalance", lp.imbalance_db, TONE_COLOURS[1]),
+                        ("shaping / ISI", lp.shaping_db, THEORY),
                         ("rest", lp.rest_db, GRID),
                         ("total", lp.total_db, INK),
-                        ("template mismatch\n(not in total)", lp.template_db, THEORY)):
+                        ("template mismatch\n(part of shaping)", lp.template_db, THEORY)):
             names.append(n)
             vals.append(v if np.isfinite(v) else 0.0)
             cols.append(c)

@@ -358,9 +358,10 @@ def _burst_pages(sh: Sheet, bd: dict, pics: dict, i: int) -> None:
     if lp:
         lr = [["tone correlation", style.fixed(lp["correlation"], 2)],
               ["tone imbalance", style.fixed(lp["imbalance"], 2)],
+              ["pulse shaping / intersymbol interference", style.fixed(lp.get("shaping"), 2)],
               ["rest (timing, frequency, interference, estimation)", style.fixed(lp["rest"], 2)],
               ["total", style.fixed(bd["implementation_loss_db"], 2)],
-              ["template mismatch (not in the total)", style.fixed(lp["template_mismatch"], 2)]]
+              ["template mismatch (part of shaping)", style.fixed(lp["template_mismatch"], 2)]]
         sh.table(["cause", "dB"], lr, [3.4, 0.7])
         if f"loss{i}" in pics:
             sh.picture(pics[f"loss{i}"], 0.6 * width, heading=f"Burst {k} (continued)")
