@@ -23,7 +23,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, special, stats
+from scipy import special
 
 from . import branches, theory
 
@@ -335,6 +335,8 @@ def _ks_pvalues(d, n) -> np.ndarray:
             p[i] = 2.0 * _smirnov_sf(int(m), x)
         else:
             p[i] = 0.0
+    if rest or big:
+        from scipy import stats         # imported where needed: a heavy module
     if rest:
         p[rest] = stats.kstwo.sf(d[rest], n[rest])
     if big:
@@ -995,6 +997,8 @@ def decision_gain(ebn0: float, imbalance_db: float) -> DecisionGain:
     .. [2] R. P. Brent, *Algorithms for Minimization without Derivatives*,
        Prentice Hall, 1973 -- from memory.
     """
+    from scipy import optimize          # imported where needed: a heavy module
+
     if not (np.isfinite(ebn0) and ebn0 > 0 and np.isfinite(imbalance_db)):
         return DecisionGain(float("nan"), float("nan"), float("nan"))
     if abs(imbalance_db) < theory.IMBALANCE_NEGLIGIBLE_DB:

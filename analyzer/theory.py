@@ -23,7 +23,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, special, stats
+from scipy import special
 
 __all__ = [
     "CORRELATION_NEGLIGIBLE",
@@ -398,6 +398,8 @@ def _required_db_scalar(ber: float, model: LinkModel) -> float:
         if form == "orthogonal":
             return 10.0 * math.log10(x_orth)
     log_target = math.log(ber)
+    from scipy import optimize          # imported where needed: a heavy module
+
 
     def f(x_db: float) -> float:
         p = float(ber_expected(10.0 ** (x_db / 10.0), model))
@@ -551,6 +553,8 @@ def binomial_band(p, n, level: float = 0.999):
     """
     if not (0.0 < level < 1.0):
         raise ValueError("binomial_band: level must be in (0, 1)")
+    from scipy import stats             # imported where needed: a heavy module
+
     tail = (1.0 - level) / 2.0
     lo = stats.binom.ppf(tail, n, p)
     hi = stats.binom.isf(tail, n, p)
