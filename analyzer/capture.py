@@ -55,12 +55,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
-import scipy.signal
-import scipy.fft
 
 from .errors import InputError, warn
 
-__all__ = ["Capture", "open_capture", "read_all", "RAW_FORMATS", "HILBERT_MARGIN"]
+__all__ = ["Capture", "open_capture", "read_all", "verify_sha512", "RAW_FORMATS", "HILBERT_MARGIN"]
 
 #: Samples of context on each side of a block for the analytic transform.
 HILBERT_MARGIN = 8192
@@ -133,6 +131,23 @@ class _MemmapSource:
         parts = [self._read(i, max(a, first), min(b, stop), np.dtype("<c8"))
                  for i, (first, stop, _) in enumerate(self.pieces) if max(a, first) < min(b, stop)]
         return np.concatenate(parts) if len(parts) != 1 else parts[0]
+
+    def byte_span(self, a: int, b: int) -> tuple[list | None, int]:
+        """Where samples ``a <= n < b`` lie in the file: ``(runs, end)``.
+
+        ``end`` is the byte after sample ``b - 1``.  When the samples are read
+        unconverted (the array read holds exactly the file's bytes), ``runs``
+        lists ``(file_offset, i, j)``: the array's samples ``i <= k < j`` are
+        the file's bytes from ``file_offset`` on; otherwise it is None.
+        """
+        frame = self.component.itemsize * self.n_comp * self.n_channels
+        runs, end = [], 0
+        for first, stop, base in self.pieces:
+            lo, hi = max(a, first), min(b, stop)
+            if lo < hi:
+                runs.append((base + lo * frame, lo - a, hi - a))
+                end = base + hi * frame
+        return (runs if self._direct else None), end
 
     def raw(self, a: int, b: int) -> np.ndarray:
         """Samples ``a <= n < b`` (already clipped) as complex128 or float64."""
@@ -210,6 +225,10 @@ class Capture:
         For integer formats, the magnitude (of I or Q, after scaling) at or
         above which a stored value is at the converter's limit: the largest
         positive code over full scale, capped at 0.999; None for float data.
+    sha512_unchecked : str or None
+        The metadata's ``core:sha512`` when it is still to be checked against
+        the dataset (opened with ``verify=False``: the analysis checks it in
+        its own pass over the file, see :func:`verify_sha512`); else None.
     """
 
     path: Path
@@ -222,7 +241,23 @@ class Capture:
     truth: dict | None
     metadata: dict
     clip_level: float | None = None
+    sha512_unchecked: str | None = None
     _source: object = field(default=None, repr=False, compare=False)
+
+    def sample_bytes(self, a: int, b: int) -> tuple[list | None, int] | None:
+        """Where the samples ``a <= n < b`` that :meth:`read` returned lie in the data file.
+
+        ``(runs, end)``: ``end`` is the byte after sample ``b - 1``; when the
+        array read holds exactly the file's bytes (stored as complex64),
+        ``runs`` lists ``(file_offset, i, j)``, the array's samples
+        ``i <= k < j`` being the file's bytes from ``file_offset`` on; else
+        None.  None for captures not read from a binary data file.
+        """
+        span = getattr(self._source, "byte_span", None)
+        if span is None:
+            return None
+        runs, end = span(a, b)
+        return (None if self.real else runs), end
 
     @property
     def real(self) -> bool:
@@ -266,6 +301,9 @@ class Capture:
             x[:m] *= taper
         if rb < self.n_samples:         # fade out the right context
             x[n - m:] *= taper[::-1]
+        import scipy.fft                # imported where needed (real signals only): heavy modules
+        import scipy.signal
+
         z = scipy.signal.hilbert(x, N=scipy.fft.next_fast_len(n, real=True))[:n]
         return np.asarray(z[a - ra:b - ra], dtype=np.complex64)
 
@@ -436,10 +474,26 @@ def _ignored_options(path: Path, rate, fmt, what: str) -> None:
 
 
 # --------------------------------------------------------------------------- openers
-def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt, strict: bool = False) -> Capture:
+def verify_sha512(data_path: Path, expected, actual: str, strict: bool) -> None:
+    """Compare the dataset's SHA-512 with the metadata's ``core:sha512``.
+
+    A mismatch is a warning (the capture is analysed anyway) or, with
+    ``strict``, an InputError.
+    """
+    if actual.lower() != str(expected).lower():
+        if strict:
+            raise InputError("SHA-512 checksum does not match core:sha512 in the metadata", data_path,
+                             "the data may be damaged or edited; restore the recording, or drop "
+                             "--strict to analyse it anyway")
+        warn(f"{data_path}: SHA-512 checksum does not match core:sha512 in the metadata; "
+             "the data may be damaged or edited (analysing it anyway; --strict makes this an error)")
+
+
+def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt, strict: bool = False,
+                verify: bool = True) -> Capture:
     import jsonschema
     import sigmf
-    from sigmf import hashing, sigmffile
+    from sigmf import sigmffile
 
     _check_file(meta_path)
     meta = _load_json(meta_path, "SigMF metadata")
@@ -551,15 +605,13 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt, strict:
              f"using the first segment's, {'none' if centre is None else f'{centre:g} Hz'}")
 
     sha = g.get("core:sha512")
-    if sha:
-        actual = hashing.calculate_sha512(filename=data_path)
-        if actual.lower() != str(sha).lower():
-            if strict:
-                raise InputError("SHA-512 checksum does not match core:sha512 in the metadata", data_path,
-                                 "the data may be damaged or edited; restore the recording, or drop "
-                                 "--strict to analyse it anyway")
-            warn(f"{data_path}: SHA-512 checksum does not match core:sha512 in the metadata; "
-                 "the data may be damaged or edited (analysing it anyway; --strict makes this an error)")
+    unchecked = None
+    if sha and verify:
+        from .digest import file_sha512
+
+        verify_sha512(data_path, sha, file_sha512(data_path), strict)
+    elif sha:
+        unchecked = str(sha)
 
     truth = g.get(_TRUTH_KEY)
     if not isinstance(truth, dict):
@@ -567,7 +619,8 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt, strict:
     src = _MemmapSource(data_path, pieces, comp, n_comp, n_ch, scale, bias)
     return Capture(path=path, data_path=data_path, kind="iq" if n_comp == 2 else "audio",
                    sample_rate_hz=float(rate_hz), centre_hz=centre, n_samples=int(n_samples), datatype=dt,
-                   truth=truth, metadata=meta, clip_level=_clip_level(_sigmf_bits(dt)), _source=src)
+                   truth=truth, metadata=meta, clip_level=_clip_level(_sigmf_bits(dt)),
+                   sha512_unchecked=unchecked, _source=src)
 
 
 def _open_audio(path: Path, container: str, rate, fmt) -> Capture:
@@ -633,7 +686,8 @@ def _open_raw(path: Path, rate, fmt) -> Capture:
                    clip_level=_clip_level(_sigmf_bits(dt)), _source=src)
 
 
-def open_capture(path, rate: float | None = None, fmt: str | None = None, strict: bool = False) -> Capture:
+def open_capture(path, rate: float | None = None, fmt: str | None = None, strict: bool = False,
+                 verify: bool = True) -> Capture:
     """Open a capture file (nothing is read but metadata and headers).
 
     Parameters
@@ -649,6 +703,10 @@ def open_capture(path, rate: float | None = None, fmt: str | None = None, strict
         (little endian; ``--format``).
     strict : bool
         Make a SigMF checksum mismatch an error instead of a warning (``--strict``).
+    verify : bool
+        Check the SigMF ``core:sha512`` now (one read of the dataset).  False
+        leaves it in ``Capture.sha512_unchecked`` for the analysis, which
+        checks it in its own pass over the file.
 
     Returns
     -------
@@ -677,7 +735,7 @@ def open_capture(path, rate: float | None = None, fmt: str | None = None, strict
                                  "put the .sigmf-meta file beside it, or give --rate and --format "
                                  "to read it as raw I/Q samples")
             return _open_raw(p, rate, fmt)
-        return _open_sigmf(p, meta_path, data_path, rate, fmt, strict)
+        return _open_sigmf(p, meta_path, data_path, rate, fmt, strict, verify)
     container = _AUDIO_EXT.get(p.suffix.lower())
     if container:
         return _open_audio(p, container, rate, fmt)

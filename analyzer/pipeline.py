@@ -14,7 +14,7 @@ from typing import Callable
 import numpy as np
 
 from . import acquire, branches, decide, diagnostics, estimate, frames, prbs, signal_energy, survey, theory
-from .capture import Capture, open_capture
+from .capture import Capture, open_capture, verify_sha512
 from .errors import CaptureWarning, InputError, warn
 from .heap import keep_freed_memory
 from .workers import fork_map, fork_workers
@@ -948,7 +948,7 @@ def _fork_map(fn, ctx: _RegionContext, tasks: list, workers: int | None, busy: i
 def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None = None,
                     progress: Callable[[int, int, str], None] | None = None,
                     prior_warnings: tuple[str, ...] = (), block: int | None = None,
-                    workers: int | None = None) -> AnalysisResult:
+                    workers: int | None = None, strict: bool = False) -> AnalysisResult:
     """Analyse an opened capture (see :func:`analyze`).
 
     ``prior_warnings`` (from opening the capture) are put first in the result's warnings.
@@ -957,6 +957,9 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     ``workers`` is the number of processes that share the pass over the capture
     and the burst regions (default :func:`analyzer.workers.default_workers`; 1
     keeps everything in this process); it changes speed, not results.
+    A SigMF checksum still to be checked (``cap.sha512_unchecked``, from
+    ``open_capture(..., verify=False)``) is checked in the first pass over
+    the file; ``strict`` makes a mismatch an error instead of a warning.
     """
     _check_hints(cap, opts)
     keep_freed_memory()
@@ -966,11 +969,33 @@ def analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text: str | None =
     from threadpoolctl import threadpool_limits
 
     with threadpool_limits(limits=1, user_api="blas"):
-        return _analyze_capture(cap, opts, bits_text, progress, prior_warnings, block, workers)
+        return _analyze_capture(cap, opts, bits_text, progress, prior_warnings, block, workers, strict)
+
+
+def _checked_survey(cap: Capture, strict: bool, **kw) -> survey.Survey:
+    """The survey pass; with a SigMF checksum still to check, the file's SHA-512 formed in the same
+    pass and compared (a mismatch warns, or with ``strict`` is an error, as when checked on opening)."""
+    expected = getattr(cap, "sha512_unchecked", None)
+    if not expected:
+        return survey.survey(**kw)
+    from .digest import CaptureDigest
+
+    digest = CaptureDigest(cap.data_path, cap.sample_bytes)
+    try:
+        scan = survey.survey(digest=digest, **kw)
+    except InputError:
+        # checked on opening, a strict mismatch came before any problem the pass finds
+        if strict:
+            verify_sha512(cap.data_path, expected, digest.hexdigest(), strict)
+        raise
+    finally:
+        digest.close()
+    verify_sha512(cap.data_path, expected, digest.hexdigest(), strict)
+    return scan
 
 
 def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, prior_warnings, block,
-                     workers) -> AnalysisResult:
+                     workers, strict=False) -> AnalysisResult:
     fs = cap.sample_rate_hz
     nfft_psd = int(min(acquire.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
     # the passes: the survey (checks, DC, spectra, and the power trace when the band is
@@ -1003,10 +1028,11 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
             known = survey.TraceSpec(band, *_trace_frame(cap, band, rs))
         blk = _block_size(block, nfft_psd, acquire.SPECTROGRAM_NFFT, known.frame if known else 1)
         stage = "spectrum and power" if known else "spectrum"
-        scan = survey.survey(cap.read, cap.n_samples, fs, blk, nfft_psd, kind=cap.kind,
-                             clip_level=getattr(cap, "clip_level", None), path=cap.path, trace=known,
-                             stride=survey.spectrogram_stride(cap.n_samples, every_frame=known is None),
-                             progress=stage_progress(stage), stage=stage, workers=fork_workers(workers))
+        scan = _checked_survey(cap, strict, read=cap.read, n_samples=cap.n_samples, sample_rate_hz=fs, block=blk,
+                               nfft_psd=nfft_psd, kind=cap.kind, clip_level=getattr(cap, "clip_level", None),
+                               path=cap.path, trace=known,
+                               stride=survey.spectrogram_stride(cap.n_samples, every_frame=known is None),
+                               progress=stage_progress(stage), stage=stage, workers=fork_workers(workers))
         if cap.n_samples == 0 or not scan.any_signal:
             raise InputError("the capture holds no signal (all samples are zero)", cap.path,
                              "check the recording chain")
@@ -1173,7 +1199,8 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
     """
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", CaptureWarning)
-        cap = open_capture(path, rate=sample_rate_hz, fmt=fmt, strict=strict)
+        # the checksum is checked in the analysis's own pass over the file (read once)
+        cap = open_capture(path, rate=sample_rate_hz, fmt=fmt, strict=strict, verify=False)
     opened = tuple(str(w.message) for w in caught if issubclass(w.category, CaptureWarning))
     bits_text = None
     if reference.startswith("bits:"):
@@ -1192,4 +1219,4 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
                            symbol_rate_hz=None if symbol_rate_hz is None else float(symbol_rate_hz),
                            reference=reference, decision=decision)
     return analyze_capture(cap, opts, bits_text=bits_text, progress=progress, prior_warnings=opened, block=block,
-                           workers=workers)
+                           workers=workers, strict=strict)

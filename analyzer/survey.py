@@ -140,6 +140,26 @@ def _quantum_sums(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             np.concatenate(energy) if energy else np.empty(0))
 
 
+def periodic_hann(n: int) -> np.ndarray:
+    """The periodic (DFT-even) Hann window of ``n`` samples, float64.
+
+    Formed with the same operations as ``scipy.signal.windows.hann(n, sym=False)``
+    (a symmetric window of ``n + 1`` samples, the last dropped), so it is the same
+    to the last bit, without importing scipy.signal.
+
+    References
+    ----------
+    .. [1] ``scipy.signal.windows.hann`` and ``scipy.signal.windows.general_cosine``.
+    """
+    if n <= 1:
+        return np.ones(max(int(n), 0))
+    fac = np.linspace(-np.pi, np.pi, n + 1, dtype=np.float64)
+    w = np.zeros(n + 1, dtype=np.float64)
+    for k, a in enumerate((0.5, 0.5)):
+        w += np.float64(a) * np.cos(k * fac)
+    return w[:-1]
+
+
 class _Periodograms:
     """Hann-windowed frames of one length: spectrogram cells, averaged spectrum, raw DC bins."""
 
@@ -148,10 +168,8 @@ class _Periodograms:
 
     def __init__(self, nfft: int, cells: int | None, stride: int):
         self.nfft, self.cells, self.stride = nfft, cells, stride
-        from scipy.signal import windows
-
         # periodic (DFT-even) Hann, 0.5 - 0.5 cos(2 pi k / n): its DFT has three nonzero bins
-        self.w = windows.hann(nfft, sym=False).astype(np.float32)
+        self.w = periodic_hann(nfft).astype(np.float32)
         self.w2 = 3.0 * nfft / 8.0                      # sum of the periodic Hann window squared
         self.W = np.array([nfft / 2.0, -nfft / 4.0, -nfft / 4.0])
         self.rows, self.raw = [], []
@@ -258,8 +276,9 @@ class _Partial:
 
 
 def _stretch(read, lo: int, hi: int, block: int, setup: tuple, trace: _Trace | None = None,
-             progress=None, stage: str = "") -> _Partial:
-    """The pass over samples ``lo <= n < hi`` (``lo`` a multiple of ``block``); trace frames go into ``trace``."""
+             progress=None, stage: str = "", digest=None) -> _Partial:
+    """The pass over samples ``lo <= n < hi`` (``lo`` a multiple of ``block``); trace frames go into ``trace``;
+    each read is shown to ``digest`` (``digest.seen(pos, x)``), in order."""
     sample_rate_hz, nfft_psd, kind, clip_level, path, stride = setup
     nfft = acquire.SPECTROGRAM_NFFT
     part = _Partial(_Periodograms(nfft, acquire.SPECTROGRAM_CELLS, stride),
@@ -269,6 +288,8 @@ def _stretch(read, lo: int, hi: int, block: int, setup: tuple, trace: _Trace | N
         x = read(pos, min(block, hi - pos))
         if len(x) == 0:
             break
+        if digest is not None:
+            digest.seen(pos, x)
         if trace is not None:
             # the trace frames carry each frame's sum (its 0 Hz bin) and energy (Parseval)
             tf = trace.add(x, pos)
@@ -330,8 +351,9 @@ def _stretch_task(ctx: tuple, lo: int, hi: int) -> _Partial:
 
 
 def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, trace: _Trace | None, workers: int,
-                        progress, stage):
-    """The pass over the whole capture, split in stretches among forked workers."""
+                        progress, stage, digest=None):
+    """The pass over the whole capture, split in stretches among forked workers (while this process
+    feeds ``digest`` the file in order, block by block)."""
     from .workers import fork_map
 
     n_blocks = -(-n_samples // block)
@@ -340,7 +362,8 @@ def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, trace: _
     cuts[-1] = n_samples
     bounds = [(a, min(b, n_samples)) for a, b in zip(cuts[:-1], cuts[1:]) if a < min(b, n_samples)]
     parts = []
-    for part in fork_map(_stretch_task, (read, block, setup, trace), bounds, workers):
+    for part in fork_map(_stretch_task, (read, block, setup, trace), bounds, workers,
+                         alongside=digest.step if digest is not None else None):
         parts.append(part)
         if progress:
             progress(part.end, n_samples, stage)
@@ -349,7 +372,7 @@ def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, trace: _
 
 def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: int, *,
            kind: str = "iq", clip_level: float | None = None, path=None, trace: TraceSpec | None = None,
-           stride: int = 1, progress=None, stage: str = "survey", workers: int = 1) -> Survey:
+           stride: int = 1, progress=None, stage: str = "survey", workers: int = 1, digest=None) -> Survey:
     """One pass over the raw samples: checks, mean, power, clipping, spectra and (with ``trace``) the trace.
 
     Parameters
@@ -382,6 +405,11 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
         safe).  Every sum is kept per quantum or frame, so the result is the
         same as from one process, up to the rounding of the averaged spectrum's
         sum over frames.
+    digest : analyzer.digest.CaptureDigest, optional
+        Fed the data file in order during the pass: by each read in one
+        process, block by block by this process while workers share the pass.
+        Its :meth:`~analyzer.digest.FileDigest.hexdigest` is then the file's
+        SHA-512 at the cost of the bytes the pass did not read.
 
     Raises
     ------
@@ -392,9 +420,9 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
     parallel = workers > 1 and n_samples >= PARALLEL_MIN_SAMPLES and n_samples > block
     frames = _Trace(trace, sample_rate_hz, n_samples, shared=parallel) if trace is not None else None
     if parallel:
-        part = _parallel_stretches(read, n_samples, block, setup, frames, workers, progress, stage)
+        part = _parallel_stretches(read, n_samples, block, setup, frames, workers, progress, stage, digest)
     else:
-        part = _stretch(read, 0, n_samples, block, setup, frames, progress, stage)
+        part = _stretch(read, 0, n_samples, block, setup, frames, progress, stage, digest)
     n = max(part.end, 1)
     sm = np.concatenate(([] if frames is None else [frames.dc_bin]) + part.sums + [np.zeros(1, complex)])
     en = np.concatenate(([] if frames is None else [frames.energy]) + part.energies + [np.zeros(1)])

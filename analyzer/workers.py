@@ -60,18 +60,31 @@ def _call(task):
     return out, [str(w.message) for w in caught if issubclass(w.category, CaptureWarning)]
 
 
-def fork_map(fn: Callable, ctx, tasks: Iterable[tuple], workers: int) -> Iterator:
+def fork_map(fn: Callable, ctx, tasks: Iterable[tuple], workers: int,
+             alongside: Callable[[], bool] | None = None) -> Iterator:
     """Yield ``fn(ctx, *task)`` for each task, in task order.
 
     With ``workers`` > 1 the tasks run in that many forked processes (the
     caller has checked :func:`fork_workers`); otherwise here.  ``fn`` must be
     a module-level function.  An exception in a task is raised here.
+
+    ``alongside``, if given, is work for this process while the workers run:
+    it is called again and again (one step each time, returning True while
+    more is left) whenever the next result is not ready, and run to its end
+    before the last result is yielded (in this process, after the tasks, when
+    nothing is forked).
     """
     global _FORKED
     tasks = list(tasks)
+    more = alongside is not None
     if workers <= 1 or len(tasks) <= 1:
-        for t in tasks:
-            yield fn(ctx, *t)
+        for i, t in enumerate(tasks):
+            out = fn(ctx, *t)
+            while more and i == len(tasks) - 1:
+                more = alongside()
+            yield out
+        while more:
+            more = alongside()
         return
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor
@@ -82,10 +95,19 @@ def fork_map(fn: Callable, ctx, tasks: Iterable[tuple], workers: int) -> Iterato
     try:
         with ProcessPoolExecutor(max_workers=min(workers, len(tasks)),
                                  mp_context=multiprocessing.get_context("fork")) as pool:
-            for out, messages in pool.map(_call, tasks):
-                for m in messages:
-                    warn(m)
-                yield out
+            futures = [pool.submit(_call, t) for t in tasks]
+            try:
+                for i, fut in enumerate(futures):
+                    while more and (i == len(futures) - 1 or not fut.done()):
+                        more = alongside()
+                    out, messages = fut.result()
+                    for m in messages:
+                        warn(m)
+                    yield out
+            except BaseException:               # as Executor.map: tasks not started are dropped
+                for fut in futures:
+                    fut.cancel()
+                raise
     finally:
         _FORKED = None
 

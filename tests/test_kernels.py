@@ -725,3 +725,14 @@ def test_envelope_cdfs_of_several_samples_equal_one_by_one():
         np.testing.assert_array_equal(g, diagnostics.envelope_cdf(r, nu, s))     # the same values
     law = stats.rice(3.0 / 1.1, scale=1.1)                                      # reference: scipy.stats.rice
     np.testing.assert_allclose(got[0], law.cdf(rs[0]), rtol=0, atol=1.2e-7)     # the stated bound
+
+
+def test_periodic_hann_is_scipy_hann_to_the_bit():
+    from analyzer.survey import periodic_hann
+
+    # reference: scipy.signal.windows.hann(n, sym=False), every frame length the survey uses and a few others
+    for n in [0, 1, 2, 3, 7] + [2 ** k for k in range(4, 13)]:
+        ref = signal.windows.hann(n, sym=False)
+        got = periodic_hann(n)
+        assert got.dtype == ref.dtype and got.shape == ref.shape
+        assert np.array_equal(got, ref)                    # tolerance: exactly equal
