@@ -38,6 +38,8 @@ ROOT = Path(__file__).resolve().parents[1]
 CAPTURE = ROOT / "sample_captures" / "beacon_demo.sigmf-meta"
 SPEC = ROOT / "sample_captures" / "beacon_demo.spec.toml"
 GOALS = {"html": 2.5, "pdf": 3.5}
+#: the source tree whose ``analyzer`` runs (``--tree``: another checkout, to compare)
+TREE = {"root": ROOT}
 
 FLOOR = """
 import sys
@@ -56,7 +58,7 @@ TONEPAIR = "import sys; sys.argv[0] = 'tonepair'; from analyzer.cli import main;
 
 
 def _env() -> dict:
-    return dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""),
+    return dict(os.environ, PYTHONPATH=str(TREE["root"]) + os.pathsep + os.environ.get("PYTHONPATH", ""),
                 MPLBACKEND="Agg")
 
 
@@ -133,7 +135,10 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--repeat", type=int, default=5, help="rounds (each runs the three commands once; default 5)")
     ap.add_argument("--top", type=int, default=14, help="packages listed in the import breakdown")
+    ap.add_argument("--tree", type=Path, default=ROOT, help="source tree whose analyzer is timed (default: this "
+                    "one; e.g. an older checkout made with git archive, to compare)")
     a = ap.parse_args()
+    TREE["root"] = a.tree.resolve()
     with tempfile.TemporaryDirectory(prefix="tonepair-latency-") as tmp:
         cmds = commands(Path(tmp))
         for c in cmds.values():                   # once untimed: byte-code compiled, files in the page cache
@@ -143,8 +148,8 @@ def main() -> int:
             for k, c in cmds.items():
                 runs[k].append(timed(c))
         med = {k: (statistics.median(w for w, _ in v), statistics.median(c for _, c in v)) for k, v in runs.items()}
-        print(f"tonepair latency: demo capture with its spec, {a.repeat} rounds, medians "
-              f"({os.cpu_count()} CPUs)")
+        print(f"tonepair latency ({TREE['root']}): demo capture with its spec, {a.repeat} rounds, medians "
+              f"({os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.1f} at the end)")
         print(f"{'':<24} {'wall s':>8} {'CPU s':>8} {'wall x':>8} {'CPU x':>8} {'goal':>6}")
         fw, fc = med["floor"]
         labels = {"floor": "floor (import + 1 PNG)", "html": "(a) analyze, HTML", "pdf": "(b) analyze, --pdf"}

@@ -16,10 +16,33 @@ memory between the two sizes.
 
 Targets: marginal cost at most 4x the reference's; memory growth at most 64 MB.
 
+Then, per burst (``--part bursts`` alone), in this process with one BLAS
+thread as the pipeline runs: bursts of 4000 symbols at 8, 16 and 32 samples
+per symbol (5 kBd, tones -2500/+2500 Hz, Eb/N0 12 dB, PN9) are analysed once
+while the calls of the region analysis are recorded; then, on the same
+bursts in the same run, it times
+
+* the full per-burst analysis (``pipeline._region_bursts`` on the burst's
+  region: timing, tones, decisions, pattern sync, error count, statistics and
+  diagnostics),
+* the minimum-work floor: the symbol matrix on the final grid (the analysis's
+  own first sample and measured tones) times the two tones' mixing templates
+  (mix with both tones and sum each symbol window in one product), then the
+  square-law decisions,
+* the floor with the mixing spelt out (the samples times each tone's
+  oscillator, made beforehand, then each window summed),
+* the first floor with a brute-force timing search: every offset of the grid
+  in whole samples over one symbol, the summed energy of the outputs
+  compared, then the decisions at the best offset,
+
+prints the medians of the repeats in ms of CPU time per burst, the ratios of the full
+analysis to each floor (goal: at most 10x the first at 16 samples per
+symbol) and the growth with samples per symbol (goal: no faster than linear).
+
 The captures carry no ``core:sha512``: checking a checksum is one more read of
 the file that the reference does not make.
 
-Run with ``make bench`` or ``python benchmarks/throughput.py [--sizes 8,32] [--repeat N]``.
+Run with ``make bench`` or ``python benchmarks/throughput.py [--sizes 8,32] [--repeat N] [--part all|capture|bursts]``.
 """
 
 from __future__ import annotations
@@ -30,6 +53,7 @@ import os
 import subprocess
 import sys
 import tempfile
+import time
 from pathlib import Path
 
 import numpy as np
@@ -136,12 +160,139 @@ def best(code: str, arg: str, repeat: int, data: Path) -> dict:
                                                      "all_seconds": sorted(r["seconds"] for r in runs)}
 
 
+BURST_BAUD = 5000.0
+BURST_TONES = (-2500.0, 2500.0)
+BURST_SPS = (8, 16, 32)
+BURSTS_PER_SPS = 4
+GOAL_BURST_RATIO = 10.0
+
+
+def _burst_calls(sps: int) -> tuple[list, object, float]:
+    """Analyse BURSTS_PER_SPS bursts at ``sps`` samples per symbol, recording each region analysis's
+    arguments; returns them, the result and the sample rate."""
+    from analyzer import pipeline
+    from analyzer.capture import ArrayCapture
+    from analyzer.synth import SynthParams, synthesize
+
+    fs = sps * BURST_BAUD
+    res = synthesize(SynthParams(tones_hz=BURST_TONES, symbol_rate_hz=BURST_BAUD, sample_rate_hz=fs,
+                                 ebn0_db=EBN0_DB, n_bursts=BURSTS_PER_SPS, symbols_per_burst=BURST_SYMBOLS,
+                                 gap_samples=float(2000 * sps), start_offset_samples=500.0 * sps, seed=sps))
+    calls, real = [], pipeline._region_bursts
+
+    def spy(*args):
+        calls.append(args)
+        return real(*args)
+
+    pipeline._region_bursts = spy
+    try:
+        out = pipeline.analyze_capture(ArrayCapture(res.samples, fs),
+                                       pipeline.AnalysisOptions(BURST_TONES, BURST_BAUD, reference="auto"),
+                                       workers=1)
+    finally:
+        pipeline._region_bursts = real
+    return [c for c in calls if c[3] is not None], out, fs
+
+
+def _floor(x: np.ndarray, first: int, n: int, sps: int, templates: np.ndarray) -> np.ndarray:
+    """Square-law decisions of ``n`` symbols of ``sps`` samples from sample ``first``: one product of the
+    symbol matrix with the two tones' templates (mix and sum each window), then compare the energies."""
+    z = x[first:first + n * sps].reshape(n, sps) @ templates
+    e = z.real ** 2 + z.imag ** 2
+    return e[:, 1] > e[:, 0]
+
+
+def _floor_mix(x: np.ndarray, first: int, n: int, sps: int, oscillators: np.ndarray) -> np.ndarray:
+    """The same decisions with the mixing spelt out: the samples times each tone's oscillator on the
+    grid (made beforehand), each symbol window summed, the energies compared."""
+    seg = x[first:first + n * sps]
+    e = []
+    for osc in oscillators:
+        z = (seg * osc).reshape(n, sps).sum(axis=1)
+        e.append(z.real ** 2 + z.imag ** 2)
+    return e[1] > e[0]
+
+
+def _floor_search(x: np.ndarray, first: int, n: int, sps: int, templates: np.ndarray) -> np.ndarray:
+    """The floor with a brute-force timing search: each whole-sample offset over one symbol."""
+    lo = max(0, first - sps // 2)
+    n1 = min(n, (len(x) - lo - sps) // sps)
+    best, at = -1.0, lo
+    for d in range(sps):
+        z = x[lo + d:lo + d + n1 * sps].reshape(n1, sps) @ templates
+        e = float(np.sum(z.real ** 2) + np.sum(z.imag ** 2))
+        if e > best:
+            best, at = e, lo + d
+    return _floor(x, at, n1, sps, templates)
+
+
+def _median_ms(fn, repeat: int) -> float:
+    """Median CPU time of ``fn()`` in ms (this process's CPU time: a busy host disturbs it less than wall time)."""
+    times = []
+    for _ in range(repeat):
+        t = time.process_time()
+        fn()
+        times.append(time.process_time() - t)
+    return 1e3 * float(np.median(times))
+
+
+def burst_table(repeat: int) -> None:
+    """Per-burst analysis time against the minimum-work floors, at 8, 16 and 32 samples per symbol."""
+    from threadpoolctl import threadpool_limits
+
+    from analyzer import pipeline
+
+    rows = []
+    with threadpool_limits(limits=1, user_api="blas"):
+        for sps in BURST_SPS:
+            calls, out, fs = _burst_calls(sps)
+            full, floor, mix, search, agree = [], [], [], [], []
+            for args, b in zip(calls, out.bursts):
+                ctx, a, stop = args[0], args[1], args[2]
+                x = ctx.read(a, stop - a).astype(np.complex64)
+                first = int(round(b.grid.first_start)) - a
+                n = b.grid.n_symbols
+                k = np.arange(sps)
+                templates = np.exp(-2j * np.pi * np.outer(k, b.tones_hz) / fs).astype(np.complex64)
+                osc = np.exp(-2j * np.pi * np.outer(b.tones_hz, np.arange(n * sps) % sps) / fs).astype(np.complex64)
+                pipeline._region_bursts(*args)                                    # warm
+                full.append(_median_ms(lambda: pipeline._region_bursts(*args), repeat))
+                floor.append(_median_ms(lambda: _floor(x, first, n, sps, templates), 5 * repeat))
+                mix.append(_median_ms(lambda: _floor_mix(x, first, n, sps, osc), 5 * repeat))
+                search.append(_median_ms(lambda: _floor_search(x, first, n, sps, templates), 3 * repeat))
+                agree.append(float(np.mean(_floor(x, first, n, sps, templates) == (b.decisions == 1))))
+            rows.append((sps, len(full), float(np.mean(full)), float(np.mean(floor)), float(np.mean(search)),
+                         float(np.mean(agree)), float(np.mean(mix))))
+    print(f"per burst of {BURST_SYMBOLS} symbols (5 kBd, Eb/N0 {EBN0_DB:g} dB, one process, one BLAS thread; "
+          f"CPU time, medians of {repeat} runs, mean over the bursts)")
+    print(f"{'sps':>4} {'bursts':>7} {'full ms':>9} {'floor ms':>9} {'full/floor':>11} {'mix ms':>8} "
+          f"{'full/mix':>9} {'search ms':>10} {'full/search':>12} {'same decisions':>15}")
+    for sps, nb, f, fl, se, ag, mx in rows:
+        print(f"{sps:>4} {nb:>7} {f:>9.2f} {fl:>9.3f} {f / fl:>11.1f} {mx:>8.3f} {f / mx:>9.1f} {se:>10.3f} "
+              f"{f / se:>12.1f} {ag:>15.4f}")
+    print("  floor: symbol matrix times the two tones' templates; mix: samples times each oscillator, windows "
+          "summed; search: the floor at each whole-sample offset over one symbol, then at the best; "
+          "same decisions: the floor's against the analysis's")
+    r16 = next(r for r in rows if r[0] == 16)
+    print(f"full / floor at 16 samples per symbol: {r16[2] / r16[3]:.1f} (goal <= {GOAL_BURST_RATIO:g}) "
+          f"{'ok' if r16[2] / r16[3] <= GOAL_BURST_RATIO else 'OVER'}")
+    for (s0, _, f0, *_), (s1, _, f1, *_) in zip(rows, rows[1:]):
+        print(f"growth {s0} -> {s1} samples per symbol: full x{f1 / f0:.2f} (linear: x{s1 / s0:g}) "
+              f"{'ok' if f1 / f0 <= s1 / s0 else 'OVER'}")
+
+
 def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--sizes", default="8,32", help="two capture sizes in Msamples (default 8,32)")
     ap.add_argument("--repeat", type=int, default=3, help="runs per measurement; the fastest is kept (the "
                     "reference, a few tens of milliseconds and easily upset by the host, runs 3 times as often)")
+    ap.add_argument("--part", choices=("all", "capture", "bursts"), default="all",
+                    help="the long captures, the per-burst table, or both (default)")
     a = ap.parse_args()
+    if a.part != "capture":
+        burst_table(max(a.repeat, 5))
+        if a.part == "bursts":
+            return 0
     sizes = [int(float(s) * 1_000_000) for s in a.sizes.split(",")]
     if len(sizes) != 2 or sizes[0] >= sizes[1]:
         ap.error("--sizes needs two increasing sizes")
