@@ -142,10 +142,10 @@ print(json.dumps({"seconds": dt, "maxrss_kb": int(hwm[0].split()[1]) if hwm else
 """
 
 
-def child(code: str, *args: str) -> dict:
-    """Run ``code`` in a fresh interpreter; its JSON line, with its CPU time (user + system, its own
-    workers included) as ``cpu``."""
-    env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""),
+def child(code: str, *args: str, tree: Path = ROOT) -> dict:
+    """Run ``code`` in a fresh interpreter (with the ``analyzer`` of source tree ``tree``); its JSON line,
+    with its CPU time (user + system, its own workers included) as ``cpu``."""
+    env = dict(os.environ, PYTHONPATH=str(tree) + os.pathsep + os.environ.get("PYTHONPATH", ""),
                MPLBACKEND="Agg")
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     out = subprocess.run([sys.executable, "-c", code, *args], check=True, capture_output=True, text=True, env=env)
@@ -174,6 +174,8 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--msamples", type=float, default=128, help="capture length in Msamples (default 128: 1 GiB)")
     ap.add_argument("--repeat", type=int, default=3, help="runs per measurement; medians are shown")
+    ap.add_argument("--compare", type=Path, default=None, help="also time the analysis of another source tree "
+                    "(e.g. an older checkout made with git archive) in the same run")
     a = ap.parse_args()
     n = int(a.msamples * (1 << 20))
     with tempfile.TemporaryDirectory(prefix="tonepair-long-") as tmp:
@@ -188,6 +190,10 @@ def main() -> int:
                 "analyze workers=1": lambda: child(CHILD_ANALYZE, str(meta), "1", *hint),
                 "analyze, no checksum": lambda: child(CHILD_ANALYZE, nosha, "all", *hint),
                 "sigmf.hashing": lambda: child(CHILD_SIGMF_HASH, str(data))}
+        if a.compare is not None:
+            other = a.compare.resolve()
+            jobs["compared: analyze"] = lambda: child(CHILD_ANALYZE, str(meta), "all", *hint, tree=other)
+            jobs["compared: workers=1"] = lambda: child(CHILD_ANALYZE, str(meta), "1", *hint, tree=other)
         runs: dict = {}
         for _ in range(a.repeat):
             runs.setdefault("demo", []).append(child(CHILD_ANALYZE, str(DEMO), "all", *demo))
@@ -200,6 +206,8 @@ def main() -> int:
     rss = {k: max(r["maxrss_kb"] for r in v) / 1024 for k, v in runs.items()}
     print(f"tonepair long capture: {n / 2 ** 20:g} Msamples cf32 ({8 * n / 2 ** 30:.2f} GiB), {N_BURSTS} bursts of "
           f"{BURST_SYMBOLS} symbols, core:sha512 checked; {os.cpu_count()} CPUs, medians of {a.repeat}")
+    if a.compare is not None:
+        print(f"compared: the analyzer of {a.compare.resolve()}")
     print(f"demo capture analysis (the fixed cost): {med['demo']:.3f} s wall, {cpu['demo']:.3f} s CPU "
           f"(CPU: the whole child, imports included)")
     print(f"{'':<22} {'cold s':>8} {'warm s':>8} {'cold CPU':>9} {'warm CPU':>9} {'peak RSS MB':>12}")
@@ -208,7 +216,7 @@ def main() -> int:
               f"{cpu[(name, 'warm')]:>9.3f} {max(rss[(name, 'cold')], rss[(name, 'warm')]):>12.1f}")
     for temp in ("cold", "warm"):
         floor = med[("read+hash", temp)]
-        for name in ("analyze", "analyze workers=1", "analyze, no checksum"):
+        for name in [k for k in jobs if k.startswith(("analyze", "compared"))]:
             beyond = med[(name, temp)] - med["demo"]
             ok = "ok" if beyond <= GOAL * floor else "OVER"
             print(f"{temp}: {name} beyond the demo {beyond:.3f} s = {beyond / floor:.2f}x read+hash "
