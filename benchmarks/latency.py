@@ -75,7 +75,7 @@ def timed(cmd: list[str]) -> tuple[float, float]:
     """Wall and CPU seconds (user + system of the child and its waited-for children) of one run."""
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t = time.perf_counter()
-    out = subprocess.run(cmd, capture_output=True, text=True, env=_env(), cwd=ROOT)
+    out = subprocess.run(cmd, capture_output=True, text=True, env=_env(), cwd=TREE["root"])
     wall = time.perf_counter() - t
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if out.returncode not in (0, 1):             # 1: analysed, a spec check failed
@@ -90,7 +90,7 @@ _LINE = re.compile(r"import time:\s+(\d+) \|\s+(\d+) \| (\s*)(\S+)")
 def import_times(cmd: list[str]) -> list[tuple[int, int, int, str]]:
     """``(self_us, cumulative_us, depth, module)`` for each module ``cmd`` imports (``-X importtime``)."""
     out = subprocess.run([cmd[0], "-X", "importtime"] + cmd[1:], capture_output=True, text=True, env=_env(),
-                         cwd=ROOT)
+                         cwd=TREE["root"])
     rows = []
     for line in out.stderr.splitlines():
         m = _LINE.match(line)

@@ -148,7 +148,8 @@ def child(code: str, *args: str, tree: Path = ROOT) -> dict:
     env = dict(os.environ, PYTHONPATH=str(tree) + os.pathsep + os.environ.get("PYTHONPATH", ""),
                MPLBACKEND="Agg")
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
-    out = subprocess.run([sys.executable, "-c", code, *args], check=True, capture_output=True, text=True, env=env)
+    out = subprocess.run([sys.executable, "-c", code, *args], check=True, capture_output=True, text=True, env=env,
+                         cwd=tree)
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
     return json.loads(out.stdout.strip().splitlines()[-1]) | {"cpu": cpu}
