@@ -18,7 +18,7 @@ modules' own import times summed by package (``scipy.stats``, ``matplotlib``,
 ``analyzer.pipeline`` ...), largest first, and the cumulative import time of
 ``import analyzer`` and ``import analyzer.pipeline`` alone.
 
-Run with ``python benchmarks/latency.py [--repeat N]``.
+Run with ``python benchmarks/latency.py [--repeat N] [--compare OLD_TREE]``.
 """
 
 from __future__ import annotations
@@ -57,8 +57,9 @@ fig.savefig(sys.argv[1], dpi=72)
 TONEPAIR = "import sys; sys.argv[0] = 'tonepair'; from analyzer.cli import main; sys.exit(main())"
 
 
-def _env() -> dict:
-    return dict(os.environ, PYTHONPATH=str(TREE["root"]) + os.pathsep + os.environ.get("PYTHONPATH", ""),
+def _env(tree: Path | None = None) -> dict:
+    tree = tree or TREE["root"]
+    return dict(os.environ, PYTHONPATH=str(tree) + os.pathsep + os.environ.get("PYTHONPATH", ""),
                 MPLBACKEND="Agg")
 
 
@@ -71,11 +72,13 @@ def commands(tmp: Path) -> dict[str, list[str]]:
             "pdf": analyze + ["--name", "b", "--pdf", str(tmp / "b.pdf")]}
 
 
-def timed(cmd: list[str]) -> tuple[float, float]:
-    """Wall and CPU seconds (user + system of the child and its waited-for children) of one run."""
+def timed(cmd: list[str], tree: Path | None = None) -> tuple[float, float]:
+    """Wall and CPU seconds (user + system of the child and its waited-for children) of one run
+    (with the ``analyzer`` of ``tree``, default the timed tree)."""
+    tree = tree or TREE["root"]
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t = time.perf_counter()
-    out = subprocess.run(cmd, capture_output=True, text=True, env=_env(), cwd=TREE["root"])
+    out = subprocess.run(cmd, capture_output=True, text=True, env=_env(tree), cwd=tree)
     wall = time.perf_counter() - t
     after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if out.returncode not in (0, 1):             # 1: analysed, a spec check failed
@@ -137,25 +140,35 @@ def main() -> int:
     ap.add_argument("--top", type=int, default=14, help="packages listed in the import breakdown")
     ap.add_argument("--tree", type=Path, default=ROOT, help="source tree whose analyzer is timed (default: this "
                     "one; e.g. an older checkout made with git archive, to compare)")
+    ap.add_argument("--compare", type=Path, default=None, help="also run (a) and (b) with the analyzer of this "
+                    "source tree, in the same rounds (before/after figures under the same load)")
     a = ap.parse_args()
     TREE["root"] = a.tree.resolve()
     with tempfile.TemporaryDirectory(prefix="tonepair-latency-") as tmp:
         cmds = commands(Path(tmp))
-        for c in cmds.values():                   # once untimed: byte-code compiled, files in the page cache
-            timed(c)
+        trees = {k: None for k in cmds}
+        if a.compare is not None:
+            for k in ("html", "pdf"):
+                cmds[k + " compared"] = cmds[k]
+                trees[k + " compared"] = a.compare.resolve()
+        for k, c in cmds.items():                 # once untimed: byte-code compiled, files in the page cache
+            timed(c, trees[k])
         runs: dict[str, list[tuple[float, float]]] = {k: [] for k in cmds}
         for _ in range(a.repeat):
             for k, c in cmds.items():
-                runs[k].append(timed(c))
+                runs[k].append(timed(c, trees[k]))
         med = {k: (statistics.median(w for w, _ in v), statistics.median(c for _, c in v)) for k, v in runs.items()}
         print(f"tonepair latency ({TREE['root']}): demo capture with its spec, {a.repeat} rounds, medians "
               f"({os.cpu_count()} CPUs, load average {os.getloadavg()[0]:.1f} at the end)")
         print(f"{'':<24} {'wall s':>8} {'CPU s':>8} {'wall x':>8} {'CPU x':>8} {'goal':>6}")
         fw, fc = med["floor"]
-        labels = {"floor": "floor (import + 1 PNG)", "html": "(a) analyze, HTML", "pdf": "(b) analyze, --pdf"}
+        labels = {"floor": "floor (import + 1 PNG)", "html": "(a) analyze, HTML", "pdf": "(b) analyze, --pdf",
+                  "html compared": "(a) compared tree", "pdf compared": "(b) compared tree"}
+        if a.compare is not None:
+            print(f"compared tree: {a.compare.resolve()}")
         for k in cmds:
             w, c = med[k]
-            goal = GOALS.get(k)
+            goal = GOALS.get(k.split()[0])
             verdict = "" if goal is None else f"<= {goal:g} {'ok' if w / fw <= goal and c / fc <= goal else 'OVER'}"
             print(f"{labels[k]:<24} {w:>8.3f} {c:>8.3f} {w / fw:>8.2f} {c / fc:>8.2f}  {verdict}")
         for k, v in runs.items():
