@@ -18,7 +18,8 @@ Targets: marginal cost at most 4x the reference's; memory growth at most 64 MB.
 
 Then, per burst (``--part bursts`` alone), in this process with one BLAS
 thread as the pipeline runs: bursts of 4000 symbols at 8, 16 and 32 samples
-per symbol (5 kBd, tones -2500/+2500 Hz, Eb/N0 12 dB, PN9) are analysed once
+per symbol (5 kBd, tones -2500/+2500 Hz, Eb/N0 12 dB, PN9, a random phase
+per symbol or with ``--keying continuous`` continuous phase) are analysed once
 while the calls of the region analysis are recorded; then, on the same
 bursts in the same run, it times
 
@@ -167,7 +168,7 @@ BURSTS_PER_SPS = 4
 GOAL_BURST_RATIO = 10.0
 
 
-def _burst_calls(sps: int) -> tuple[list, object, float]:
+def _burst_calls(sps: int, continuous: bool = False) -> tuple[list, object, float]:
     """Analyse BURSTS_PER_SPS bursts at ``sps`` samples per symbol, recording each region analysis's
     arguments; returns them, the result and the sample rate."""
     from analyzer import pipeline
@@ -177,7 +178,8 @@ def _burst_calls(sps: int) -> tuple[list, object, float]:
     fs = sps * BURST_BAUD
     res = synthesize(SynthParams(tones_hz=BURST_TONES, symbol_rate_hz=BURST_BAUD, sample_rate_hz=fs,
                                  ebn0_db=EBN0_DB, n_bursts=BURSTS_PER_SPS, symbols_per_burst=BURST_SYMBOLS,
-                                 gap_samples=float(2000 * sps), start_offset_samples=500.0 * sps, seed=sps))
+                                 gap_samples=float(2000 * sps), start_offset_samples=500.0 * sps, seed=sps,
+                                 continuous_phase=continuous))
     calls, real = [], pipeline._region_bursts
 
     def spy(*args):
@@ -236,7 +238,7 @@ def _median_ms(fn, repeat: int) -> float:
     return 1e3 * float(np.median(times))
 
 
-def burst_table(repeat: int) -> None:
+def burst_table(repeat: int, continuous: bool = False) -> None:
     """Per-burst analysis time against the minimum-work floors, at 8, 16 and 32 samples per symbol."""
     from threadpoolctl import threadpool_limits
 
@@ -245,7 +247,7 @@ def burst_table(repeat: int) -> None:
     rows = []
     with threadpool_limits(limits=1, user_api="blas"):
         for sps in BURST_SPS:
-            calls, out, fs = _burst_calls(sps)
+            calls, out, fs = _burst_calls(sps, continuous)
             full, floor, mix, search, agree = [], [], [], [], []
             for args, b in zip(calls, out.bursts):
                 ctx, a, stop = args[0], args[1], args[2]
@@ -263,7 +265,8 @@ def burst_table(repeat: int) -> None:
                 agree.append(float(np.mean(_floor(x, first, n, sps, templates) == (b.decisions == 1))))
             rows.append((sps, len(full), float(np.mean(full)), float(np.mean(floor)), float(np.mean(search)),
                          float(np.mean(agree)), float(np.mean(mix))))
-    print(f"per burst of {BURST_SYMBOLS} symbols (5 kBd, Eb/N0 {EBN0_DB:g} dB, one process, one BLAS thread; "
+    print(f"per burst of {BURST_SYMBOLS} symbols (5 kBd, Eb/N0 {EBN0_DB:g} dB, "
+          f"{'continuous phase' if continuous else 'random phase per symbol'}, one process, one BLAS thread; "
           f"CPU time, medians of {repeat} runs, mean over the bursts)")
     print(f"{'sps':>4} {'bursts':>7} {'full ms':>9} {'floor ms':>9} {'full/floor':>11} {'mix ms':>8} "
           f"{'full/mix':>9} {'search ms':>10} {'full/search':>12} {'same decisions':>15}")
@@ -288,9 +291,12 @@ def main() -> int:
                     "reference, a few tens of milliseconds and easily upset by the host, runs 3 times as often)")
     ap.add_argument("--part", choices=("all", "capture", "bursts"), default="all",
                     help="the long captures, the per-burst table, or both (default)")
+    ap.add_argument("--keying", choices=("random", "continuous"), default="random",
+                    help="bursts of the per-burst table: a random phase per symbol (as the long captures; "
+                         "default) or continuous phase")
     a = ap.parse_args()
     if a.part != "capture":
-        burst_table(max(a.repeat, 5))
+        burst_table(max(a.repeat, 5), a.keying == "continuous")
         if a.part == "bursts":
             return 0
     sizes = [int(float(s) * 1_000_000) for s in a.sizes.split(",")]
