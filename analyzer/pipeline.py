@@ -844,9 +844,10 @@ def _blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
 
 #: A sub-multiple R/k (k = 2..4) of the rate with the strongest timing line is taken
 #: for the symbol rate when its own line is at least this share of the strongest
-#: (1200 Bd AFSK audio at 20 dB: the 3600 Bd window's line 566, the 1200 Bd one 175,
+#: (1200 Bd AFSK audio at 20 dB: the 3600 Bd window's line 566, the 1200 Bd one 175;
+#: a Gaussian BT 0.3 burst with random phase at 30 dB: 7200 Bd 2284, 2400 Bd 325;
 #: the spurious 400 Bd one 13).
-HARMONIC_LINE_SHARE = 0.15
+HARMONIC_LINE_SHARE = 0.1
 
 
 def _sub_multiple(rate: float, cand: float) -> bool:

@@ -14,7 +14,7 @@ Model
 Each symbol window (``L`` samples, real representation ``y_k``: the I and Q
 parts for complex baseband, the samples themselves for real audio) is
 projected on an orthonormal basis of the band the burst occupies (tones at
-``f_i + m fs/L``, ``|m| <= 4``: complex exponentials for I/Q, cosines and sines
+``f_i + m fs/L``, ``|m| <= 2``: complex exponentials for I/Q, cosines and sines
 for audio).  With the symbol aligned to its window, the signal in window k is
 
     ``s_k = a_k cos(phi_k) u_c + a_k sin(phi_k) v_c``
@@ -70,7 +70,7 @@ __all__ = ["EnergySums", "band_basis", "symbol_contexts", "energy_sums", "pool_e
 Z95 = 1.959963984540054  # standard normal 97.5% quantile (scipy.stats.norm.ppf(0.975))
 
 #: Bins either side of each tone (in units of fs / L) that the band basis spans.
-BAND_BINS = 4
+BAND_BINS = 2
 #: Fewest symbols a context needs to be fitted; symbols of thinner contexts are left out.
 MIN_CONTEXT_SYMBOLS = 8
 #: Symbols per context (on average) a context shape needs to be tried.

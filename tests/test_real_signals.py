@@ -110,9 +110,9 @@ def test_signal_energy_on_known_symbols(kw):
     sums = signal_energy.energy_sums(rows, res.bits, res.truth["tones_hz"], FS, False, 1.0)
     est = signal_energy.physical_ebn0(sums)
     es_true = np.mean(np.sum(np.abs(branches.symbol_rows(res.signal, 0, g)) ** 2, axis=1))
-    # signal energy within 2%: the band basis (tones +-4 bins) holds all of a rectangular symbol's
-    # energy but 98.5% of a Gaussian BT 0.3 one's (cutting the pulse to one window spreads the rest)
-    assert est.symbol_energy == pytest.approx(es_true, rel=0.02 if kw else 0.005)
+    # signal energy within 4%: the band basis (tones +-2 bins) holds all of a rectangular symbol's
+    # energy but 97% of a Gaussian BT 0.3 one's (cutting the pulse to one window spreads the rest)
+    assert est.symbol_energy == pytest.approx(es_true, rel=0.04 if kw else 0.005)
     assert abs(est.ebn0_db - res.truth["ebn0_db"]) < 0.1 + Z * 0.12
     lo, hi = est.ebn0_db_ci95
     assert 0.1 < hi - lo < 1.0
