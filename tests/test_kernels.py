@@ -306,8 +306,14 @@ def test_normal_test_degenerate_samples_are_nan_like_scipy():
     for x in (np.ones(50), np.arange(7.0)):
         with warnings.catch_warnings():                            # scipy warns on both
             warnings.simplefilter("ignore")
-            ref = stats.normaltest(x)                              # reference: scipy.stats.normaltest
-        assert np.isnan(ref.statistic) and np.isnan(ref.pvalue)
+            try:
+                ref = stats.normaltest(x)                          # reference: scipy.stats.normaltest
+            except ValueError:                                     # older scipy (1.11) refuses under 8 samples
+                ref = None
+        if ref is not None:
+            assert np.isnan(ref.statistic) and np.isnan(ref.pvalue)
+        else:
+            assert x.size < 8
         k2, p = diagnostics.normal_test(x)
         assert np.isnan(k2) and np.isnan(p)
 
