@@ -231,6 +231,11 @@ def synth(
                                                           "before, between and after them."),
     frame_bytes: int = typer.Option(32, "--frame-bytes", metavar="N", help="With --framing hdlc: payload bytes "
                                                                            "of each frame (the FCS is added)."),
+    invert_pattern: bool = typer.Option(False, "--invert-pattern",
+                                        help="Send the complement of the pattern as O.150 defines it "
+                                             "(for PN15/PN23: the raw register output)."),
+    one_tone: str = typer.Option("high", "--one-tone", metavar="high|low",
+                                 help="Which tone a ONE of the pattern sends."),
     amplitudes: str = typer.Option("1,1", "--amplitudes", metavar="A0,A1", help="Relative tone amplitudes."),
     ramp: float = typer.Option(0.0, "--ramp", metavar="SYMBOLS", help="Power ramp at each burst edge, symbols."),
     sample_format: str = typer.Option("cf32", "--format", metavar="FORMAT",
@@ -260,6 +265,8 @@ def synth(
         if fmt not in ("cf32", "ci16"):
             raise InputError(f"unknown sample format {datatype or sample_format!r}", None,
                              "--format takes cf32 or ci16 (see tonepair synth --help)")
+        if one_tone not in ("high", "low"):
+            raise InputError(f"--one-tone must be high or low, got {one_tone!r}")
         path = run_synth(out=out, tones=_pair(tones, "--tones"), baud=baud, rate=rate, ebn0=ebn0, offset=offset,
                          continuous_phase=continuous_phase, start=start,
                          rate_error=baud_error if rate_error is None else rate_error, bursts=bursts,
@@ -269,7 +276,8 @@ def synth(
                          pulse=pulse, bt=bt, transition=transition,
                          deviation=(0.5 * index * baud if index is not None else deviation), drift=drift,
                          channel_filter=channel_filter, receiver_audio=receiver_audio,
-                         band=_pair(band, "--band"), deemphasis=deemphasis, tilt=tilt)
+                         band=_pair(band, "--band"), deemphasis=deemphasis, tilt=tilt,
+                         pattern_inverted=invert_pattern, one_on_low_tone=one_tone == "low")
     except Exception as exc:  # noqa: BLE001
         _fail(exc)
     typer.echo(f"wrote {path}")

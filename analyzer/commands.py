@@ -252,7 +252,8 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
               gap, pattern, amplitudes, ramp, datatype, audio, centre, seed, overwrite, framing: str = "none",
               frame_bytes: int = 32, pulse="rect", bt=0.5,
               transition=0.5, deviation=None, drift=0.0, channel_filter=0.0, receiver_audio=False,
-              band=(300.0, 3000.0), deemphasis=750.0, tilt=0.0) -> Path:
+              band=(300.0, 3000.0), deemphasis=750.0, tilt=0.0, pattern_inverted=False,
+              one_on_low_tone=False) -> Path:
     """Synthesise a capture and write it with its truth."""
     from .synth import SynthParams, synthesize
     from . import writers
@@ -266,7 +267,8 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
                              framing=framing, frame_bytes=frame_bytes,
                              pulse=pulse, bt=bt, transition=transition, deviation_hz=deviation, drift_hz=drift,
                              channel_filter_hz=channel_filter, receiver_audio=receiver_audio,
-                             audio_band_hz=tuple(band), deemphasis_us=deemphasis, tilt_db=tilt)
+                             audio_band_hz=tuple(band), deemphasis_us=deemphasis, tilt_db=tilt,
+                             pattern_inverted=pattern_inverted, one_on_low_tone=one_on_low_tone)
     except ValueError as exc:
         raise InputError(synth_problem(str(exc)), None, "see tonepair synth --help") from None
     res = synthesize(params)

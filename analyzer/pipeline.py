@@ -278,8 +278,13 @@ def _resolve_reference(opts: AnalysisOptions, bits: np.ndarray, bits_file_text: 
 def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[prbs.ErrorCount | None, bool]:
     """Count errors; return the count and whether a ONE rides on the low tone.
 
-    For a PRBS the polarity found by detection already fixes the mapping; for
-    an explicit pattern both mappings are tried and the better kept.
+    For a PRBS the polarity found by detection already fixes the mapping: bits
+    (tone index, 1 = high tone) that follow the complement of the O.150 pattern
+    are that pattern with a ONE on the low tone, so the count is labelled with
+    the pattern as O.150 defines it and the mapping says "low" (the same
+    received bits could be called "the inverted pattern, ONE on the high tone";
+    one name is given, never both flips at once).  For an explicit pattern
+    both mappings are tried and the better kept.
     ``expected`` in the returned count is always in tone-index space.
     ``hint`` is a PRBS alignment from an earlier count of nearly these bits
     (see :func:`prbs.count_errors`).
@@ -287,7 +292,8 @@ def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[prbs.ErrorCo
     if ref is None:
         return None, False
     if ref.is_prbs:
-        return prbs.count_errors(bits, ref, alignment_hint=hint), bool(ref.inverted)
+        ec = prbs.count_errors(bits, ref, alignment_hint=hint)
+        return replace(ec, reference=ref.name), bool(ref.inverted)
     direct = prbs.count_errors(bits, ref)
     swapped = prbs.count_errors(bits ^ np.uint8(1), ref)
     if swapped.synced and (not direct.synced or swapped.errors < direct.errors):

@@ -139,7 +139,8 @@ class SynthParams:
     ----------
     tones_hz : tuple of float
         Nominal tone frequencies (f0 < f1), baseband Hz relative to the capture
-        centre (or audio Hz when ``real``).  Bit 0 sends f0, bit 1 sends f1.
+        centre (or audio Hz when ``real``).  Bit 0 sends f0, bit 1 sends f1
+        (swapped by ``one_on_low_tone``).
     symbol_rate_hz : float
         Nominal symbol rate R_s.
     sample_rate_hz : float
@@ -188,6 +189,11 @@ class SynthParams:
         Noise-only samples after the last burst.
     pattern : str
         ITU-T O.150 pattern name (``"PN9"`` ...); the pattern runs on across bursts.
+    pattern_inverted : bool
+        Send the complement of the pattern as O.150 defines it (for PN15 and PN23,
+        whose O.150 form is the inverted register output, this is the raw register).
+    one_on_low_tone : bool
+        A ONE of the pattern sends the low tone f0 (and a ZERO f1); default the high tone.
     tone_amplitudes : tuple of float
         Relative amplitudes (a0, a1) of the two tones.
     ramp_symbols : float
@@ -246,6 +252,8 @@ class SynthParams:
     gap_samples: float = 4000.0
     tail_samples: int = 1000
     pattern: str = "PN9"
+    pattern_inverted: bool = False
+    one_on_low_tone: bool = False
     tone_amplitudes: tuple[float, float] = (1.0, 1.0)
     ramp_symbols: float = 0.0
     symbol_ramp: float = 0.0
@@ -328,7 +336,8 @@ class SynthResult:
     samples : numpy.ndarray
         complex128 (baseband) or float64 (audio) samples: signal plus noise.
     bits : numpy.ndarray
-        uint8, all bits sent, bursts concatenated.
+        uint8, all pattern bits sent (after ``pattern_inverted``), bursts
+        concatenated; the tone index of each is ``bits ^ one_on_low_tone``.
     truth : dict
         JSON-ready description: parameters, steady tones, deviation, pulse,
         Eb, N0 and Eb/N0 at the capture, and per burst the fractional start
@@ -667,9 +676,10 @@ def synthesize(p: SynthParams) -> SynthResult:
     if p.framing == "hdlc":
         all_bits, framed = _framed_tones(p, rng)
     else:
-        all_bits = prbs.prbs_sequence(p.pattern, n_sym * p.n_bursts)
+        all_bits = prbs.prbs_sequence(p.pattern, n_sym * p.n_bursts) ^ np.uint8(p.pattern_inverted)
+    tone_index = all_bits ^ np.uint8(p.one_on_low_tone)
 
-    unit, gain = _bursts(p, rng, total, starts, sps_tx, all_bits)
+    unit, gain = _bursts(p, rng, total, starts, sps_tx, tone_index)
     has_gains = bool(np.any(gain != 1.0))
     if _has_chain(p):
         ref = _apply_chain(unit, p)
