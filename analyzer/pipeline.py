@@ -1120,7 +1120,8 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         busy = sum(t[2] is not None for t in tasks)
         for (a, b, _, _), found in zip(tasks, _fork_map(_region_bursts, ctx, tasks, workers, busy)):
             region_done += b - a
-            bursts.extend(replace(r, index=len(bursts) + i) for i, r in enumerate(found))
+            first = len(bursts)          # taken before extending: the list grows while it is extended
+            bursts.extend(replace(r, index=first + i) for i, r in enumerate(found))
             if burst_cb:
                 burst_cb(region_done, region_total)
         sps = sps_min
