@@ -110,6 +110,7 @@ class BurstResult:
     energy: signal_energy.EnergySums | None = None    # sums behind the physical Eb/N0 (pooled in the summary)
     frames: frames.FrameCount | None = None           # HDLC frames, when they are the reference
     frame_theory: frames.FrameTheory | None = None
+    ber_reason: str | None = None                     # why no bit errors were counted (None when they were)
 
     @property
     def n_symbols(self) -> int:
@@ -139,6 +140,7 @@ class Summary:
     loss: theory.LossEstimate | None
     frames: frames.FrameCount | None = None
     frame_theory: frames.FrameTheory | None = None
+    ber_reason: str | None = None      # why no bit errors were counted in any burst
 
 
 @dataclass(frozen=True)
@@ -299,6 +301,30 @@ def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[prbs.ErrorCo
     if swapped.synced and (not direct.synced or swapped.errors < direct.errors):
         return replace(swapped, expected=swapped.expected ^ np.uint8(1)), True
     return direct, False
+
+
+def _ber_reason(opts: AnalysisOptions, bits: np.ndarray, ref, ber) -> str | None:
+    """Why no bit errors were counted on a burst's decisions ``bits`` (None when they were)."""
+    if ber is not None:
+        return None
+    asked = opts.reference
+    if asked == "none":
+        return "not asked for (reference none)"
+    if asked == "frames":
+        return "the HDLC frames are the reference"
+    if ref is None and asked == "auto":
+        return "no O.150 pattern found in the decisions"
+    if ref is None:
+        ref = prbs.Reference.prbs(asked)
+    name = ref.name if asked == "auto" else asked
+    need = prbs.sync_bits_needed(ref)
+    if bits.size < need:
+        return f"{name}: the burst is too short to sync ({bits.size} bits; {name} needs at least {need})"
+    if ref.is_prbs:
+        other = prbs.detect_pattern(bits)
+        if other is not None and other.name != ref.name:
+            return f"{name} not found; the bits follow {other.name}"
+    return f"{name} not found in the decisions"
 
 
 def _ber_count(ec: prbs.ErrorCount, low_is_one: bool) -> BerCount:
@@ -533,7 +559,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         ber_theory=ber_th, theory_model=model, loss=loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
         nominal_tones_hz=opts.tones_hz, phase_continuity=float(estimate.phase_continuity(out.z, sent)),
-        energy=energy, frames=fc, frame_theory=fth, **diag)
+        energy=energy, frames=fc, frame_theory=fth, ber_reason=_ber_reason(opts, dec, ref, ber), **diag)
 
 
 def _frame_count(opts: AnalysisOptions, dec: np.ndarray) -> frames.FrameCount | None:
@@ -740,7 +766,13 @@ def _summary(bursts: list[BurstResult]) -> Summary:
     if fr is not None and stats is not None:
         fth = frames.pooled_theory(counts, [b.frame_theory for b in bursts if b.frames is not None],
                                    stats.ebn0_db, stats.ebn0_db_ci95)
-    return Summary(stats=stats, ber=ber, ber_theory=ber_th, loss=loss, frames=fr, frame_theory=fth)
+    reason = None
+    if ber is None:
+        reasons = list(dict.fromkeys(b.ber_reason for b in bursts if b.ber_reason))
+        reason = reasons[0] if len(reasons) == 1 else "; ".join(
+            f"burst {b.index}: {b.ber_reason}" for b in bursts if b.ber_reason) or None
+    return Summary(stats=stats, ber=ber, ber_theory=ber_th, loss=loss, frames=fr, frame_theory=fth,
+                   ber_reason=reason)
 
 
 # --------------------------------------------------------------------------- entry points

@@ -52,6 +52,7 @@ __all__ = [
     "parse_bits_text",
     "ErrorCount",
     "count_errors",
+    "sync_bits_needed",
     "LOSS_OF_SYNC_RATE",
 ]
 
@@ -639,6 +640,18 @@ def _signed(d: int, period: int) -> int:
 #: error rate is at most this: any other alignment of an m-sequence agrees
 #: with the received bits half the time, so none can then beat it.
 HINT_MAX_RATE = 0.25
+
+
+def sync_bits_needed(ref: Reference) -> int:
+    """The fewest received bits with which :func:`count_errors` (default window) can sync.
+
+    An alignment is accepted on at least ``2W`` bits after the window that
+    proposed it (see :func:`count_errors`): for a PRBS that window is ``order``
+    bits long, so ``2W + order`` bits are needed (PN23: W = 184, 391 bits).
+    """
+    order = (PATTERNS[ref.name].order if ref.is_prbs
+             else max(1, math.ceil(math.log2(ref.period + 1))))
+    return 2 * max(64, 8 * order) + (order if ref.is_prbs else 0)
 
 
 def count_errors(bits: np.ndarray, ref: Reference, window: int | None = None,

@@ -301,7 +301,8 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
     if lim.max_ber is not None:
         name, L = "max_ber", lim.max_ber
         if not ber or ber.get("rate") is None:
-            checks.append(_unmeasured(name, L, "no bit errors counted: no reference pattern found"))
+            checks.append(_unmeasured(name, L, "no bit errors counted: "
+                                      + (summ.get("ber_reason") or "no reference pattern found")))
         else:
             rate, ci = ber["rate"], ber["ci95"]
             marg = _inside(L, ci)
@@ -323,7 +324,9 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
                                  "no bit errors, so only an upper bound of the loss is known (shown as measured)"
                                  + ("" if hi <= L else "; the bound exceeds the limit: more bits are needed")))
         else:
-            checks.append(_unmeasured(name, L, "needs both Eb/N0 and a bit error count"))
+            why = ("Eb/N0 could not be estimated" if summ.get("ebn0_db") is None else
+                   "no bit errors counted: " + (summ.get("ber_reason") or "no reference pattern found"))
+            checks.append(_unmeasured(name, L, f"needs both Eb/N0 and a bit error count; {why}"))
 
     if lim.min_ebn0_db is not None:
         name, L = "min_ebn0_db", lim.min_ebn0_db

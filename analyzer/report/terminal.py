@@ -111,7 +111,7 @@ def print_summary(report: dict, stream=None, written: list[str] | None = None, o
     elif s.get("frames"):
         rows.append(["bit error rate", style.DASH, "not counted (the frames are the reference)"])
     else:
-        rows.append(["bit error rate", style.DASH, "not counted (no reference pattern)"])
+        rows.append(["bit error rate", style.DASH, f"not counted: {s.get('ber_reason') or 'no reference pattern'}"])
     fr = s.get("frames")
     if fr:
         rows.append(["frames (HDLC)", f"{fr['valid']} of {fr['found']} valid",
