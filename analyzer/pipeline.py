@@ -1113,14 +1113,17 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         if not np.any(power > 0):
             raise InputError("the capture holds no signal (every sample has the same value)", cap.path,
                              "check the recording chain")
-        # significant: above the noise floor, or within 40 dB of the power of what varies
+        # reported when noise and signal alone would give so large a mean with a probability
+        # under survey.DC_FALSE_ALARM (a significance test against the spectrum near 0 Hz)
         dc_power = abs(scan.mean) ** 2
         ac_power = max(scan.power - dc_power, 0.0)
-        if dc_power > 0 and (dc_power > noise_var or dc_power > 1e-4 * ac_power):
+        _, dc_p = survey.dc_offset_test(scan.mean, cap.n_samples, freqs, psd, real=cap.kind == "audio")
+        if dc_power > 0 and dc_p < survey.DC_FALSE_ALARM:
             rel = 10 * np.log10(dc_power / ac_power) if ac_power > 0 else float("inf")
+            level = (f"mean sample value {scan.mean.real:.4g} of full scale" if cap.kind == "audio" else
+                     f"I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale")
             warn(f"{cap.path}: DC offset of {10 * np.log10(dc_power):.1f} dBFS "
-                 f"(I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale, {rel:.1f} dB against the "
-                 f"rest of the signal); removed before analysis")
+                 f"({level}, {rel:.1f} dB against the rest of the signal); removed before analysis")
         margin = 8 * frame + 4 * int(np.ceil(sps_min if rs is None else fs / rs))
         # close spans are joined: a weak burst can dip under the threshold for a
         # while, and the symbol-level segmentation splits real gaps precisely

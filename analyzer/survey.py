@@ -32,7 +32,7 @@ from . import acquire
 from .errors import InputError
 
 __all__ = ["QUANTUM", "TraceSpec", "Survey", "block_size", "blocks", "survey", "trace_pass",
-           "spectrogram_stride"]
+           "spectrogram_stride", "DC_FALSE_ALARM", "dc_offset_test"]
 
 #: Samples per partial sum (a power of two, at least the spectrogram frame).
 QUANTUM = 1 << 12
@@ -42,6 +42,63 @@ QUANTUM = 1 << 12
 #: steady as that of all of them).  Blind, every frame is transformed, since
 #: the band is found from them.
 SPECTROGRAM_MAX_FRAMES = 4800
+
+
+#: Probability that a capture with no DC offset is reported as having one.
+DC_FALSE_ALARM = 1e-6
+
+
+def dc_offset_test(mean: complex, n_samples: int, freqs: np.ndarray, psd: np.ndarray,
+                   real: bool = False) -> tuple[float, float]:
+    """How far the capture's mean lies from zero, against what noise and signal alone would give.
+
+    With no DC offset the mean of ``N`` samples of a stationary signal is, by
+    the central limit theorem, Gaussian of variance ``S(0) / N``, ``S(0)`` the
+    power spectral density at 0 Hz (per sample, white noise of variance
+    ``sigma^2`` giving ``sigma^2``).  ``S(0)`` is read from the spectrum two to
+    four bins either side of 0 Hz, where a DC offset leaves nothing (the periodic
+    Hann window's DFT is nonzero at 0 and +-1 bins only).  For complex samples
+    ``2 N |m|^2 / S(0)`` is chi-square with 2 degrees of freedom; for real audio
+    (read as its analytic signal, whose spectrum is ``4 S_x`` above 0 Hz and 0
+    below, so ``S_x(0)`` is half the two-sided mean) ``N m_r^2 / S_x(0)`` has 1.
+
+    Parameters
+    ----------
+    mean : complex
+        Mean of all samples.
+    n_samples : int
+        Number of samples.
+    freqs, psd : numpy.ndarray
+        Averaged spectrum (fftshifted, per-sample density as :class:`Survey` gives).
+    real : bool
+        The capture is real audio.
+
+    Returns
+    -------
+    statistic, p_value : float
+        The chi-square statistic and its upper tail probability (nan when the
+        spectrum holds no power near 0 Hz).
+
+    References
+    ----------
+    .. [1] M. B. Priestley, *Spectral Analysis and Time Series*, Academic Press,
+       1981: the variance of the sample mean of a stationary series is about
+       ``2 pi f(0) / N`` (from memory).
+    """
+    from scipy import stats
+
+    k0 = int(np.argmin(np.abs(freqs)))
+    near = np.r_[psd[max(k0 - 4, 0):max(k0 - 1, 0)], psd[k0 + 2:k0 + 5]]
+    s0 = float(np.mean(near)) if near.size else 0.0
+    if real:
+        s0 *= 0.5
+    if not s0 > 0 or n_samples < 1:
+        return float("nan"), float("nan")
+    if real:
+        t = n_samples * float(mean.real) ** 2 / s0
+        return t, float(stats.chi2.sf(t, 1))
+    t = 2.0 * n_samples * abs(mean) ** 2 / s0
+    return t, float(stats.chi2.sf(t, 2))
 
 
 @dataclass(frozen=True)
