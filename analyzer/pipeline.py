@@ -183,9 +183,10 @@ def _check_hints(cap: Capture, opts: AnalysisOptions) -> None:
     if not f0 < f1:
         raise InputError(f"--tones must be F0,F1 with F0 < F1, got {f0:g},{f1:g}", cap.path)
     lo, hi = (0.0, fs / 2) if cap.kind == "audio" else (-fs / 2, fs / 2)
-    if f0 < lo or f1 > hi:
+    if f0 < lo or f1 > hi or (cap.kind == "audio" and (f0 <= lo or f1 >= hi)):
+        what = "above 0 and below half the sample rate for audio" if cap.kind == "audio" else "in the sample band"
         raise InputError(f"tones {f0:g},{f1:g} Hz lie outside the sample band "
-                         f"[{lo:g}, {hi:g}] Hz", cap.path, "check --tones (baseband Hz for I/Q, audio Hz for audio)")
+                         f"[{lo:g}, {hi:g}] Hz", cap.path, f"check --tones: they must lie {what}")
     if rs is not None and f1 - f0 < 0.25 * rs:
         raise InputError(f"tones {f0:g},{f1:g} Hz are closer than a quarter of the symbol rate",
                          cap.path, "check --tones and --baud")

@@ -270,6 +270,10 @@ class SynthParams:
         f0, f1 = self.tones_hz
         if not f0 < f1:
             raise ValueError("tones_hz must be (f0, f1) with f0 < f1")
+        lo, hi = f0 + self.centre_offset_hz, f1 + self.centre_offset_hz
+        if self.real and not (0.0 < lo and hi < self.sample_rate_hz / 2):
+            raise ValueError(f"audio tones (with the offset) {lo:g},{hi:g} Hz must lie above 0 and below "
+                             f"half the sample rate ({self.sample_rate_hz / 2:g} Hz)")
         if self.symbol_rate_hz <= 0 or self.sample_rate_hz <= 2 * self.symbol_rate_hz:
             raise ValueError("need 0 < symbol_rate_hz < sample_rate_hz / 2")
         if self.n_bursts < 1 or self.symbols_per_burst < 1:
