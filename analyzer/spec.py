@@ -193,9 +193,31 @@ def load_spec(path: str | Path) -> Spec:
 
 
 # --------------------------------------------------------------------------- judging
-def _check(name, measured, limit, passed, marginal=False, note=""):
+def _check(name, measured, limit, passed, marginal=False, note="", ci95=(None, None)):
     return {"name": name, "measured": measured, "limit": limit, "unit": LIMIT_UNITS[name],
-            "pass": bool(passed), "marginal": bool(marginal), "note": note}
+            "pass": bool(passed), "marginal": bool(marginal), "ci95": [ci95[0], ci95[1]], "note": note}
+
+
+def _abs_interval(ci, centre=0.0):
+    """The range of ``|x - centre|`` for ``x`` in ``ci`` (None ends when ``ci`` is not known)."""
+    lo, hi = ci if ci else (None, None)
+    if lo is None or hi is None or not (math.isfinite(lo) and math.isfinite(hi)):
+        return None, None
+    a, b = lo - centre, hi - centre
+    return (0.0 if a <= 0 <= b else min(abs(a), abs(b))), max(abs(a), abs(b))
+
+
+def _worst_interval(cis):
+    """95% interval of the largest of several quantities, from each one's interval: every quantity
+    inside its interval puts the largest between the largest lower end and the largest upper end."""
+    if not cis or any(c[0] is None or c[1] is None for c in cis):
+        return None, None
+    return max(c[0] for c in cis), max(c[1] for c in cis)
+
+
+def _judged(name, w, L, ci, note, unit):
+    marg = _inside(L, ci)
+    return _check(name, w, L, w <= L, marg, note + ("; " + _marginal_note(ci, unit) if marg else ""), ci)
 
 
 def _unmeasured(name, limit, why):
@@ -242,10 +264,12 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
     checks : list of dict
         One per limit given: ``{name, measured, limit, unit, pass, marginal, note}``.
         ``marginal`` is True when the limit lies inside the measurement's 95%
-        interval (BER: Clopper-Pearson; Eb/N0 and implementation loss: their
-        reported intervals); tones, rate, imbalance and correlation carry no
-        interval and are never marginal.  A quantity that could not be measured
-        fails with a note.
+        interval ``ci95`` (BER: Clopper-Pearson; Eb/N0 and implementation loss:
+        their reported intervals; tone error, imbalance and correlation: the
+        interval of the worst burst's value from each burst's interval, see
+        :mod:`analyzer.intervals`); the symbol rate carries no interval yet and
+        is never marginal.  A quantity that could not be measured fails with a
+        note saying why.
     verdict : str
         ``"pass"`` when every check passes, ``"fail"`` otherwise, and
         ``"not-judged"`` when the spec gives no limits.
@@ -282,8 +306,10 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
             if w is None:
                 checks.append(_unmeasured(name, L, "no burst with measured tones"))
             else:
-                checks.append(_check(name, w, L, w <= L, note=f"worst of {len(errs)} tones in "
-                                     f"{len(bursts)} bursts against {tones_nom[0]:g}, {tones_nom[1]:g} Hz"))
+                ci = _worst_interval([_abs_interval((b.get("tones_hz_ci95") or [None, None])[i], tones_nom[i])
+                                      for b in bursts for i in (0, 1) if b["tones_hz"][i] is not None])
+                checks.append(_judged(name, w, L, ci, f"worst of {len(errs)} tones in {len(bursts)} bursts "
+                                      f"against {tones_nom[0]:g}, {tones_nom[1]:g} Hz", "Hz"))
 
     if lim.symbol_rate_error_ppm is not None:
         name, L = "symbol_rate_error_ppm", lim.symbol_rate_error_ppm
@@ -309,7 +335,7 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
             note = f"{ber['errors']} errors in {ber['bits']} bits"
             if marg:
                 note += "; " + _marginal_note(ci, "")
-            checks.append(_check(name, rate, L, rate <= L, marg, note))
+            checks.append(_check(name, rate, L, rate <= L, marg, note, tuple(ci)))
 
     if lim.max_implementation_loss_db is not None:
         name, L = "max_implementation_loss_db", lim.max_implementation_loss_db
@@ -317,7 +343,8 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
         if v is not None:
             marg = _inside(L, ci)
             checks.append(_check(name, v, L, v <= L, marg, _marginal_note(ci, "dB") if marg else
-                                 "measured Eb/N0 minus the Eb/N0 ideal noncoherent BFSK needs for the measured BER"))
+                                 "measured Eb/N0 minus the Eb/N0 ideal noncoherent BFSK needs for the measured BER",
+                                 tuple(ci)))
         elif ber and ber.get("errors") == 0 and ci[1] is not None:
             hi = ci[1]
             checks.append(_check(name, hi, L, hi <= L, hi > L,
@@ -336,19 +363,23 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
         else:
             marg = _inside(L, ci)
             checks.append(_check(name, v, L, v >= L, marg, _marginal_note(ci, "dB") if marg else
-                                 "all bursts pooled"))
+                                 "all bursts pooled", tuple(ci)))
 
     if lim.max_tone_imbalance_db is not None:
         name, L = "max_tone_imbalance_db", lim.max_tone_imbalance_db
         w = _worst([abs(b["tone_imbalance_db"]) for b in bursts if b["tone_imbalance_db"] is not None])
+        ci = _worst_interval([_abs_interval(b.get("tone_imbalance_db_ci95")) for b in bursts
+                              if b["tone_imbalance_db"] is not None])
         checks.append(_unmeasured(name, L, "no burst with both tones measured") if w is None else
-                      _check(name, w, L, w <= L, note="worst burst, |E_high/E_low| in dB"))
+                      _judged(name, w, L, ci, "worst burst, |E_high/E_low| in dB", "dB"))
 
     if lim.max_tone_correlation is not None:
         name, L = "max_tone_correlation", lim.max_tone_correlation
         w = _worst([b["tone_correlation"] for b in bursts if b["tone_correlation"] is not None])
+        ci = _worst_interval([tuple(b.get("tone_correlation_ci95") or (None, None)) for b in bursts
+                              if b["tone_correlation"] is not None])
         checks.append(_unmeasured(name, L, "no burst measured") if w is None else
-                      _check(name, w, L, w <= L, note="worst burst, |rho| of the measured tones over one symbol"))
+                      _judged(name, w, L, ci, "worst burst, |rho| of the measured tones over one symbol", ""))
 
     if not checks:
         return [], "not-judged"

@@ -61,7 +61,7 @@ def test_verdict_and_failing_checks_lead(judged):
     # the imbalance reads as in the bursts table: signed, two decimals, from the worst burst
     worst = max(judged["bursts"], key=lambda b: abs(b["tone_imbalance_db"]))
     shown = f"{worst['tone_imbalance_db']:+.2f}"
-    assert f"tone imbalance: {shown} dB (burst {worst['index']})" in text
+    assert f"tone imbalance: {shown} dB (burst {worst['index']}" in text
     row = next(ln for ln in lines if re.match(rf"\s+{worst['index']}\s+[\d,]+\.\d", ln))
     assert shown in row.split()
     # a BER is shown in one format, measured and limit alike

@@ -12,6 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import __version__
+from .. import intervals
 from ..branches import template_correlation
 
 SCHEMA_PATH = Path(__file__).with_name("report.schema.json")
@@ -162,6 +163,13 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "noise_correlation": _noise_corr(getattr(b, "noise_correlation", None)),
         "output_correlation": _out_corr(getattr(b, "output_correlation", None)),
     }
+    nominal_centre = 0.0 if b.nominal_tones_hz is None else 0.5 * sum(b.nominal_tones_hz)
+    iv = intervals.burst_intervals(b.tones_hz, b.stats.gain_sq, b.stats.noise_var_complex, b.stats.n_symbols,
+                                   b.grid.window, sample_rate_hz, nominal_centre)
+    d["tones_hz_ci95"] = [_pair(iv.tones_hz[0]), _pair(iv.tones_hz[1])]
+    d["centre_offset_hz_ci95"] = _pair(iv.centre_offset_hz)
+    d["tone_imbalance_db_ci95"] = _pair(iv.imbalance_db)
+    d["tone_correlation_ci95"] = _pair(iv.tone_correlation)
     if b.nominal_tones_hz is not None:
         d["nominal_template_loss_db"] = _num(nominal_template_loss_db(
             b.tones_hz, b.nominal_tones_hz, sample_rate_hz, b.grid.window))

@@ -96,9 +96,14 @@ def check_measured(c: dict, bursts: list[dict] | None = None, unit: bool = False
         vals = [(abs(b["tone_imbalance_db"]), b) for b in bursts if b.get("tone_imbalance_db") is not None]
         if vals:
             _, b = max(vals, key=lambda t: t[0])
-            return f"{fixed(b['tone_imbalance_db'], 2, sign=True)}{u} (burst {b['index']})"
+            lo, hi = c.get("ci95") or (None, None)
+            ci = f"; |x| 95% {fixed(lo, 2)} … {fixed(hi, 2)}" if lo is not None and hi is not None else ""
+            return f"{fixed(b['tone_imbalance_db'], 2, sign=True)}{u} (burst {b['index']}{ci})"
     if name == "max_implementation_loss_db" and v is not None and "upper bound" in (c.get("note") or ""):
         return f"<= {check_value(name, v)}{u}"
+    lo, hi = c.get("ci95") or (None, None)
+    if v is not None and lo is not None and hi is not None and name in ("tone_error_hz", "max_tone_correlation"):
+        return f"{check_value(name, v)}{u} (95% {check_value(name, lo)} … {check_value(name, hi)})"
     return check_value(name, v) + u
 
 
@@ -108,9 +113,11 @@ def check_note(c: dict, report: dict | None = None, short: bool = False) -> str:
     if not c.get("marginal") or report is None:
         return note
     s = report.get("summary") or {}
-    ci = {"max_ber": (s.get("ber") or {}).get("ci95"), "min_ebn0_db": s.get("ebn0_db_ci95"),
-          "max_implementation_loss_db": s.get("implementation_loss_db_ci95")}.get(c["name"])
-    if not ci:
+    ci = c.get("ci95")
+    if not ci or ci[0] is None or ci[1] is None:
+        ci = {"max_ber": (s.get("ber") or {}).get("ci95"), "min_ebn0_db": s.get("ebn0_db_ci95"),
+              "max_implementation_loss_db": s.get("implementation_loss_db_ci95")}.get(c["name"])
+    if not ci or ci[0] is None or ci[1] is None:
         return note
     lo, hi = (check_value(c["name"], v) for v in ci)
     return (f"marginal: the limit lies inside the 95% interval {lo} … {hi} {c['unit']}"
