@@ -63,3 +63,36 @@ def test_sweep_of_four_levels_has_no_loss(tmp_path, make_capture, run_cli):
         assert {"path", "ebn0_db", "ebn0_db_ci95", "ber", "ber_ci95", "errors", "bits"} <= set(p)
     assert (out / "sweep.pdf").read_bytes()[:5] == b"%PDF-"        # ISO 32000 header
     assert (out / "sweep.html").exists()
+
+
+def test_weighted_fit_interval_and_bound_against_scipy():
+    """Points off the curve by different amounts and with different spreads: the fit must weight
+    each by its inverse variance.  Reference: scipy.optimize.minimize_scalar on the weighted sum
+    of squares, the weights from scipy.stats.binomtest's exact (Clopper-Pearson) interval mapped
+    through the closed-form requirement and the Eb/N0 interval read as normal; the zero-error
+    bound from the closed-form Clopper-Pearson upper end 1 - 0.025^(1/n)."""
+    from scipy import optimize, stats
+
+    z = stats.norm.isf(0.025)
+    spec = [(1.0, 0.1, 400, 4000), (1.5, 0.6, 60, 4000), (2.5, 1.2, 8, 4000)]   # (shift, Eb/N0 half-width, k, n)
+    pts, d, w = [], [], []
+    for shift, half, k, n in spec:
+        e = _ideal_required_db(k / n) + shift
+        pts.append(SweepPoint("p", e, (e - half, e + half), k, n))
+        lo, hi = stats.binomtest(k, n).proportion_ci(0.95, method="exact")
+        s_r = (_ideal_required_db(lo) - _ideal_required_db(hi)) / (2 * z)
+        d.append(shift)
+        w.append(1.0 / ((half / z) ** 2 + s_r ** 2))
+    pts.append(SweepPoint("zero", 14.0, (13.5, 14.5), 0, 5000))
+    fit = fit_loss(pts, 1e-3)
+    ref = optimize.minimize_scalar(lambda L: sum(wi * (di - L) ** 2 for wi, di in zip(w, d)),
+                                   bounds=(0, 4), method="bounded", options={"xatol": 1e-10})
+    assert fit.loss_db == pytest.approx(ref.x, abs=1e-6)
+    # the weights differ a lot, so the unweighted mean (1.667) and a variance-weighted one are far off
+    assert abs(fit.loss_db - sum(d) / 3) > 0.2
+    chi2 = sum(wi * (di - ref.x) ** 2 for wi, di in zip(w, d))
+    se = max(1.0, math.sqrt(chi2 / 2)) / math.sqrt(sum(w))
+    assert fit.chi2 == pytest.approx(chi2, rel=1e-6)
+    assert fit.loss_db_ci95 == pytest.approx((ref.x - z * se, ref.x + z * se), abs=1e-6)
+    p_hi = 1 - 0.025 ** (1 / 5000)                       # Clopper-Pearson upper end for 0 of n
+    assert fit.upper_bounds_db[3] == pytest.approx(14.5 - _ideal_required_db(p_hi), abs=1e-6)
