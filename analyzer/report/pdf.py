@@ -193,7 +193,8 @@ def _summary_rows(report: dict) -> list[list[str]]:
              f"{style.sci(b['ci95'][0])} … {style.sci(b['ci95'][1])}" if b else ""],
             ["errors / bits", f"{b['errors']:,} / {b['bits']:,}" if b else style.DASH, ""],
             ["pattern", f"{b['reference']}, ONE on {b['tone_for_one']}" if b else
-             ("HDLC frames" if s.get("frames") else "none found"), ""],
+             ("HDLC frames" if s.get("frames") else "none counted"),
+             "" if b or s.get("frames") else textwrap.fill(s.get("ber_reason") or "", 40)],
             ["slips", str(b["slips"]) if b else style.DASH, ""],
             ["BER theory expects", style.sci(s["ber_theory"]), ""],
             ["implementation loss", loss, loss_ci],
