@@ -45,16 +45,23 @@ def test_ebn0_and_error_count_against_theory(tmp_path, ebn0_db, seed):
                          start_offset_samples=1234.37, seed=seed)
     _, out = _analyse(tmp_path, params)
     s = out.summary
-    # Reference: the generator's set Eb/N0 (its definition in analyzer/synth.py); tolerance 0.3 dB (issue 2).
-    assert abs(s.stats.ebn0_db - ebn0_db) < 0.3
+    # Reference: the generator's set Eb/N0 (its definition in analyzer/synth.py).  Tolerance: 4.42
+    # standard deviations of the estimate (two-sided normal tail 1e-5, scipy.stats.norm), the standard
+    # deviation read from the reported 95% interval, whose coverage tests/test_intervals.py checks;
+    # the interval itself must be narrow (3000 symbols: half-width about 0.27 dB at 4 dB, 0.18 at 12).
+    lo95, hi95 = s.stats.ebn0_db_ci95
+    sd = (hi95 - lo95) / (2 * stats.norm.isf(0.025))
+    assert hi95 - lo95 < 0.7
+    assert abs(s.stats.ebn0_db - ebn0_db) < stats.norm.isf(5e-6) * sd
     # Reference: Pb = 1/2 exp(-Eb/2N0) at the true Eb/N0 (Proakis & Salehi, from memory);
-    # the count must lie in the central 99.9% binomial band (scipy.stats.binom).
+    # the count must lie in the central binomial band of probability 1 - 1e-5 (scipy.stats.binom).
     pb = 0.5 * np.exp(-10 ** (ebn0_db / 10) / 2)
     n = s.ber.bits
-    lo, hi = stats.binom.ppf(0.0005, n, pb), stats.binom.isf(0.0005, n, pb)
+    lo, hi = stats.binom.ppf(5e-6, n, pb), stats.binom.isf(5e-6, n, pb)
     assert lo <= s.ber.errors <= hi
-    # Nearly every symbol is counted (a few seed bits and edge symbols aside).
-    assert n >= 2950
+    # Nearly every symbol is counted (seed bits and edge symbols aside).  Not a statistical bound:
+    # at 4 dB the fewest counted over 26 other seeds (30-55) was 2933 of 3000.
+    assert n >= 2850
 
 
 @pytest.mark.parametrize("seed", [21, 22, 23, 24])
