@@ -8,7 +8,7 @@ References outside the project:
   Bell 202 tone plan 1200/2200 Hz at 1200 Bd (from memory of the modem standard);
 * noncoherent BFSK error probabilities, 1/2 exp(-Eb/2N0) for orthogonal tones and
   the Marcum-Q form for correlated tones (Proakis & Salehi -- from memory), with the
-  99.9% binomial band from scipy.stats.binom.
+  binomial band of probability 1 - 1e-5 (false failure 1e-5) from scipy.stats.binom.
 
 The tolerances follow the issue (tones to 1% of R_s, symbol rate to 100 ppm, start
 to a tenth of a symbol).  For a random phase per symbol the frequency of each tone
@@ -110,9 +110,9 @@ def test_long_burst_with_1000_ppm_drift_has_no_slips():
     b = out.bursts[0]
     assert b.ber.slips == 0
     assert abs(b.symbol_rate_hz / res.truth["bursts"][0]["symbol_rate_hz"] - 1) < 100e-6
-    # Reference: 1/2 exp(-Eb/2N0) at the generator's 9 dB (Proakis, from memory), 99.9% binomial band.
+    # Reference: 1/2 exp(-Eb/2N0) at the generator's 9 dB (Proakis, from memory), binomial band of probability 1 - 1e-5 (false failure 1e-5).
     pb = theory.ber_orthogonal(10 ** 0.9)
-    lo, hi = stats.binom.ppf(0.0005, b.ber.bits, pb), stats.binom.isf(0.0005, b.ber.bits, pb)
+    lo, hi = stats.binom.ppf(5e-6, b.ber.bits, pb), stats.binom.isf(5e-6, b.ber.bits, pb)
     assert lo <= b.ber.errors <= hi
 
 
@@ -135,10 +135,10 @@ def test_receiver_audio_bell_202(tmp_path, container):
     assert abs(abs(b.rho) - abs(np.sinc(1000 / 1200))) < 0.03
     assert b.theory_model.correlated
     assert b.phase_continuity > 0.9
-    # Errors inside the 99.9% band of the correlated-tone theory at the generator's Eb/N0
+    # Errors inside the 1 - 1e-5 band of the correlated-tone theory at the generator's Eb/N0
     # (Proakis & Salehi Marcum-Q form, from memory).
     pb = theory.ber_correlated(10 ** (ebn0 / 10), np.sinc(1000 / 1200))
-    lo, hi = stats.binom.ppf(0.0005, b.ber.bits, pb), stats.binom.isf(0.0005, b.ber.bits, pb)
+    lo, hi = stats.binom.ppf(5e-6, b.ber.bits, pb), stats.binom.isf(5e-6, b.ber.bits, pb)
     assert lo <= b.ber.errors <= hi
     # Eb/N0 of the audio (definition: N0 = 2 sigma^2 for real noise) within 0.5 dB.
     assert abs(b.stats.ebn0_db - ebn0) < 0.5
@@ -183,10 +183,10 @@ def test_receiver_audio_random_phase_ebn0(tmp_path, seed):
     path = writers.write_audio(tmp_path / "rx.wav", res.samples, 48000, subtype="FLOAT", truth=res.truth)
     out = pipeline.analyze(path, tones_hz=(1200.0, 2400.0), symbol_rate_hz=1200.0)
     assert abs(out.summary.stats.ebn0_db - 10.0) < 0.3
-    # and the error count inside the 99.9% band of 1/2 exp(-Eb/2N0) (Proakis & Salehi, from memory)
+    # and the error count inside the 1 - 1e-5 band of 1/2 exp(-Eb/2N0) (Proakis & Salehi, from memory)
     pb = theory.ber_orthogonal(10.0)
     n = out.summary.ber.bits
-    assert stats.binom.ppf(0.0005, n, pb) <= out.summary.ber.errors <= stats.binom.isf(0.0005, n, pb)
+    assert stats.binom.ppf(5e-6, n, pb) <= out.summary.ber.errors <= stats.binom.isf(5e-6, n, pb)
 
 
 def test_band_limited_noise_burst_is_not_taken_for_a_burst():
