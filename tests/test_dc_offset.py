@@ -64,7 +64,7 @@ def test_no_dc_warning_on_clean_captures(run_cli, tmp_path, args):
     # false-failure probability: DC_FALSE_ALARM = 1e-6 per capture
     res = synthesize(SynthParams(**args))
     meta = writers.write_sigmf(tmp_path / "c", res.samples, 80e3, truth=res.truth)
-    r = run_cli("analyze", meta, "--out", tmp_path / "o")
+    r = run_cli("analyze", meta, "--tones", "-2500,2500", "--baud", "5000", "--out", tmp_path / "o")
     assert r.exit_code == 0, r.output
     rep = json.loads((tmp_path / "o" / "c.json").read_text())
     assert not [w for w in rep["warnings"] if "DC offset" in w]
