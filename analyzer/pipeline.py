@@ -875,9 +875,14 @@ def _blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
     # the rate, not a harmonic: the lowest rate whose line is at least half the strongest,
     # or a sub-multiple R/2..R/4 of the strongest whose own line still stands out clearly
     # (short windows can make a harmonic's line several times the symbol rate's own)
-    best = min((t for t in tried if t.line_snr >= 0.5 * top or (
-        t.line_snr >= max(HARMONIC_LINE_SHARE * top, 2 * BLIND_MIN_LINE_QUALITY)
-        and _sub_multiple(strongest, t.symbol_rate_hz))), key=lambda t: t.symbol_rate_hz)
+    # (a lower rate than the strongest's must itself clear twice the line threshold: on a short
+    # burst every line is weak, and half the rate can come within a factor of two by chance)
+    clear = [t for t in tried if t.line_snr >= 2 * BLIND_MIN_LINE_QUALITY and (
+        t.line_snr >= 0.5 * top
+        or (t.line_snr >= HARMONIC_LINE_SHARE * top and _sub_multiple(strongest, t.symbol_rate_hz)))]
+    # with no line that clear (a weak burst, or noise), the lowest rate within a factor two of the
+    # strongest, whose quality then decides whether it is analysed at all
+    best = min(clear or [t for t in tried if t.line_snr >= 0.5 * top], key=lambda t: t.symbol_rate_hz)
     return float(best.symbol_rate_hz), float(best.line_snr)
 
 

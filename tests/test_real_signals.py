@@ -213,3 +213,13 @@ def test_shaping_named_as_a_cause(kw, lo, hi):
     lp = out.bursts[0].loss_parts
     if lp is not None and np.isfinite(lp.shaping_db):
         assert lp.shaping_db == pytest.approx(st.ebn0_db - st.correlator_ebn0_db)
+
+
+def test_short_burst_blind_rate_is_not_halved():
+    # A 300-symbol continuous-phase burst analysed blind: every timing line is weak, and half the
+    # rate came within a factor two of the true one by chance; it is timed at the generator's
+    # 5000 Bd (within 100 ppm, the blind-acquisition tolerance of tests/test_blind.py).
+    p = SynthParams(pattern="PN23", symbols_per_burst=300, ebn0_db=12.0, seed=1)
+    _, out = _analyse(p, hints=False)
+    assert len(out.bursts) == 1
+    assert abs(out.bursts[0].symbol_rate_hz / 5000.0 - 1) < 100e-6
