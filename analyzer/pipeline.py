@@ -551,6 +551,9 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     fth = frames.frame_theory(stats.ebn0, model, fc, stats.ebn0_db, stats.ebn0_db_ci95) if fc is not None else None
     if stats.ebn0_db >= GRID_FIT_MIN_EBN0_DB:
         _check_grid_fit(x, x_start, fs, grid, tones, dec)
+    _check_hints_fit(opts, grid, tones, fs, float(tm.line_snr))
+    if opts.symbol_rate_hz is not None and (ber is None or ber.rate > HINT_CHECK_BER or ber.slips > 0):
+        _check_blind_rate(x, x_start, fs, grid, tones, float(tm.line_snr))
     p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
     diag = _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, ber, loss, scale, rows)
     return BurstResult(
@@ -585,6 +588,64 @@ GRID_FIT_MIN_EBN0_DB = 10.0
 #: (a third for random data or a PRBS; all of them when every symbol is doubled; about
 #: three quarters for start-stop characters with 1.5 stop bits timed at twice their rate).
 EVEN_RUN_SHARE = 0.6
+
+
+#: A measured tone this share of the tone search's reach (0.45 of the smaller of
+#: the nominal spacing and the symbol rate) or more from its hint, or a rate this
+#: share of the rate search's reach (3000 ppm) or more from its hint, is said to
+#: sit at the edge of what the hint allows.
+HINT_EDGE_SHARE = 0.5
+
+
+def _check_hints_fit(opts: AnalysisOptions, grid, tones, fs: float, line_quality: float) -> None:
+    """Warn when a measurement sits at the edge of the range its hint allows, or the hinted
+    rate shows no symbol-rate line: a hint is a starting point, and a wrong one is obeyed only
+    as far as the search around it reaches."""
+    where = f"the burst at sample {grid.first_start:.0f}"
+    rate = fs / grid.samples_per_symbol
+    if opts.tones_hz is not None:
+        f0, f1 = (float(v) for v in opts.tones_hz)
+        reach = 0.45 * min(abs(f1 - f0), rate)
+        moved = max(abs(tones[0] - f0), abs(tones[1] - f1))
+        if moved >= HINT_EDGE_SHARE * reach:
+            warn(f"{where}: the measured tones {tones[0]:.0f} / {tones[1]:.0f} Hz lie up to {moved:.0f} Hz from "
+                 f"--tones {f0:g},{f1:g} (the search around a hint reaches about {reach:.0f} Hz): the hint may be "
+                 "wrong; run without --tones to measure the tones blind")
+    if opts.symbol_rate_hz is not None:
+        ppm = (rate / float(opts.symbol_rate_hz) - 1) * 1e6
+        if abs(ppm) >= HINT_EDGE_SHARE * HINT_RATE_SEARCH_PPM:
+            warn(f"{where}: the measured symbol rate {rate:.6g} Bd lies {ppm:+.0f} ppm from --baud "
+                 f"{float(opts.symbol_rate_hz):g}, at the edge of the +-{HINT_RATE_SEARCH_PPM:g} ppm searched: the "
+                 "rate may lie beyond it; run without --baud to measure it blind")
+        elif line_quality < BLIND_MIN_LINE_QUALITY:
+            warn(f"{where}: at --baud {float(opts.symbol_rate_hz):g} the burst shows no clear symbol-rate line "
+                 f"(quality {line_quality:.1f}, below {BLIND_MIN_LINE_QUALITY:g}): the hinted rate may be wrong; "
+                 "run without --baud to measure it blind")
+
+
+#: The symbol-rate search around a --baud hint (acquire.symbol_timing's default).
+HINT_RATE_SEARCH_PPM = 3000.0
+#: A burst analysed at a hinted rate whose error count is above this, slips, or is
+#: not counted at all has its rate measured blind as well, to compare.
+HINT_CHECK_BER = 0.01
+
+
+def _check_blind_rate(x, x_start, fs: float, grid, tones, line_quality: float) -> None:
+    """Warn when the blind symbol rate of a burst differs from the one measured at the hinted
+    rate and shows a clearly stronger timing line (a --baud that is off by more than the search)."""
+    lo = max(int(np.floor(grid.first_start)) - x_start, 0)
+    hi = min(int(np.ceil(grid.stop)) - x_start, len(x))
+    if hi - lo < 32 * grid.window:
+        return
+    got = _blind_rate(x[lo:hi], fs, tones)
+    if got is None:
+        return
+    blind, quality = got
+    rate = fs / grid.samples_per_symbol
+    if abs(blind / rate - 1) > 1e-3 and quality > 1.5 * line_quality:
+        warn(f"the burst at sample {grid.first_start:.0f}: measured blind, its symbol rate is {blind:.6g} Bd "
+             f"with a clearer timing line (quality {quality:.0f} against {line_quality:.0f} at {rate:.6g} Bd "
+             "near --baud): the hint may be wrong; run without --baud to measure it blind")
 
 
 def _check_grid_fit(x, x_start, fs, grid, tones, dec) -> None:

@@ -224,3 +224,26 @@ def test_short_burst_blind_rate_is_not_halved():
     _, out = _analyse(p, hints=False)
     assert len(out.bursts) == 1
     assert abs(out.bursts[0].symbol_rate_hz / 5000.0 - 1) < 1e-3
+
+
+@pytest.mark.parametrize("kw,tones,baud,said", [
+    (dict(ebn0_db=10.0), (-1000.0, 1000.0), 5000.0, "from --tones"),
+    (dict(ebn0_db=10.0), (-2500.0, 2500.0), 50.0, "--baud"),
+    (dict(ebn0_db=12.0, rate_error_ppm=5000.0), (-2500.0, 2500.0), 5000.0, "measured blind"),
+    (dict(ebn0_db=12.0), (-2500.0, 2500.0), 5000.0, None),
+    (dict(ebn0_db=12.0, centre_offset_hz=300.0), (-2500.0, 2500.0), 5000.0, None),
+])
+def test_wrong_hints_are_said(kw, tones, baud, said):
+    # A hint is a starting point: tones 1500 Hz inside the sent ones, a rate a hundredth of the
+    # sent one, and a transmitter 5000 ppm fast (beyond the +-3000 ppm searched around --baud) each
+    # get a warning naming the option; right hints, and a 300 Hz transmitter offset, get none.
+    # Reference: the generator's settings (inputs); the wording is the product's.
+    p = SynthParams(**kw, seed=2)
+    res = synthesize(p)
+    out = pipeline.analyze_capture(ArrayCapture(res.samples, p.sample_rate_hz), pipeline.AnalysisOptions(tones, baud),
+                                   workers=1)
+    hinted = [w for w in out.warnings if "hint may be wrong" in w or "the rate may lie" in w]
+    if said is None:
+        assert hinted == []
+    else:
+        assert any(said in w for w in hinted)
