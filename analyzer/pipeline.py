@@ -597,6 +597,11 @@ EVEN_RUN_SHARE = 0.6
 HINT_EDGE_SHARE = 0.5
 
 
+#: A DC offset this far below the rest of the signal (dB) is not worth a warning, however
+#: significant: a nearly noiseless capture makes even a rounding-level mean "significant".
+DC_NEGLIGIBLE_DB = -60.0
+
+
 def _check_hints_fit(opts: AnalysisOptions, grid, tones, fs: float, line_quality: float) -> None:
     """Warn when a measurement sits at the edge of the range its hint allows, or the hinted
     rate shows no symbol-rate line: a hint is a starting point, and a wrong one is obeyed only
@@ -1185,8 +1190,9 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
         dc_power = abs(scan.mean) ** 2
         ac_power = max(scan.power - dc_power, 0.0)
         _, dc_p = survey.dc_offset_test(scan.mean, cap.n_samples, freqs, psd, real=cap.kind == "audio")
-        if dc_power > 0 and dc_p < survey.DC_FALSE_ALARM:
-            rel = 10 * np.log10(dc_power / ac_power) if ac_power > 0 else float("inf")
+        rel = 10 * np.log10(dc_power / ac_power) if ac_power > 0 and dc_power > 0 else float("inf")
+        # ... and large enough to matter: a mean 60 dB or more below the signal changes no figure
+        if dc_power > 0 and dc_p < survey.DC_FALSE_ALARM and rel > DC_NEGLIGIBLE_DB:
             level = (f"mean sample value {scan.mean.real:.4g} of full scale" if cap.kind == "audio" else
                      f"I {scan.mean.real:.4g}, Q {scan.mean.imag:.4g} of full scale")
             warn(f"{cap.path}: DC offset of {10 * np.log10(dc_power):.1f} dBFS "
