@@ -178,7 +178,7 @@ def synth(
     rate: float = typer.Option(80000.0, "--rate", metavar="HZ", help="Sample rate, Hz."),
     ebn0: float = typer.Option(10.0, "--ebn0", metavar="DB", help="Eb/N0 at the capture in dB: signal energy per bit as "
                                                     "written (after any filter) over the noise density N0 "
-                                                    "(in the passband; for receiver audio at the two tones)."),
+                                                    "(for coloured noise, the noise a one-symbol tone template sees at the two tones)."),
     offset: float = typer.Option(0.0, "--offset", metavar="HZ", help="Transmitter frequency error added to both tones, Hz."),
     continuous_phase: bool = typer.Option(True, "--continuous-phase/--random-phase",
                                           help="Continuous phase (a VCO or DDS modulator; the default), or an "
