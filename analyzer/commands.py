@@ -7,7 +7,6 @@ Python for scripted runs.
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 from .errors import InputError

@@ -35,7 +35,7 @@ per-symbol powers in each group (the two groups are independent).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -247,8 +247,6 @@ def with_physical_ebn0(stats: BranchStats, physical) -> BranchStats:
     """
     if physical is None or not np.isfinite(physical.ebn0_db):
         return stats
-    from dataclasses import replace
-
     return replace(stats, ebn0=physical.ebn0, ebn0_db=physical.ebn0_db, ebn0_db_ci95=physical.ebn0_db_ci95,
                    correlator_ebn0_db=stats.ebn0_db)
 

@@ -13,7 +13,7 @@ from typing import Callable
 
 import numpy as np
 
-from . import acquire, branches, decide, diagnostics, estimate, frames, prbs, signal_energy, survey, theory
+from . import acquire, blind, branches, decide, diagnostics, estimate, frames, prbs, signal_energy, survey, theory
 from .capture import Capture, open_capture, verify_sha512
 from .errors import CaptureWarning, InputError, warn
 from .heap import keep_freed_memory
@@ -347,7 +347,6 @@ def _acquire_bursts_in_span(x: np.ndarray, x_start: int, fs: float, tones, rs: f
     grid = acquire.grid_for_span(tm.phase_sample, tm.symbol_rate_hz, fs, x_start, x_start + len(x) - 1)
     if grid.n_symbols < 1:
         return []
-    # each symbol's correlator energy |z0|^2 + |z1|^2 is the window energy at its first sample
     # each branch's energy, so that a run of the weaker of two unequal tones is not taken for a gap
     out = branches.correlate(x, x_start, grid, tones, fs)
     branch_energy = out.z.real ** 2 + out.z.imag ** 2
@@ -622,9 +621,9 @@ def _check_hints_fit(opts: AnalysisOptions, grid, tones, fs: float, line_quality
             warn(f"{where}: the measured symbol rate {rate:.6g} Bd lies {ppm:+.0f} ppm from --baud "
                  f"{float(opts.symbol_rate_hz):g}, at the edge of the +-{HINT_RATE_SEARCH_PPM:g} ppm searched: the "
                  "rate may lie beyond it; run without --baud to measure it blind")
-        elif line_quality < BLIND_MIN_LINE_QUALITY:
+        elif line_quality < blind.BLIND_MIN_LINE_QUALITY:
             warn(f"{where}: at --baud {float(opts.symbol_rate_hz):g} the burst shows no clear symbol-rate line "
-                 f"(quality {line_quality:.1f}, below {BLIND_MIN_LINE_QUALITY:g}): the hinted rate may be wrong; "
+                 f"(quality {line_quality:.1f}, below {blind.BLIND_MIN_LINE_QUALITY:g}): the hinted rate may be wrong; "
                  "run without --baud to measure it blind")
 
 
@@ -642,13 +641,13 @@ def _check_blind_rate(x, x_start, fs: float, grid, tones, line_quality: float) -
     hi = min(int(np.ceil(grid.stop)) - x_start, len(x))
     if hi - lo < 32 * grid.window:
         return
-    got = _blind_rate(x[lo:hi], fs, tones)
+    got = blind.blind_rate(x[lo:hi], fs, tones)
     if got is None:
         return
-    blind, quality = got
+    blind_rs, quality = got
     rate = fs / grid.samples_per_symbol
-    if abs(blind / rate - 1) > 1e-3 and quality > 1.5 * line_quality:
-        warn(f"the burst at sample {grid.first_start:.0f}: measured blind, its symbol rate is {blind:.6g} Bd "
+    if abs(blind_rs / rate - 1) > 1e-3 and quality > 1.5 * line_quality:
+        warn(f"the burst at sample {grid.first_start:.0f}: measured blind, its symbol rate is {blind_rs:.6g} Bd "
              f"with a clearer timing line (quality {quality:.0f} against {line_quality:.0f} at {rate:.6g} Bd "
              "near --baud): the hint may be wrong; run without --baud to measure it blind")
 
@@ -860,7 +859,7 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
     Blind on receiver audio, the tone pairs from the strongest peaks of the
     region's spectrum are tried beside the modes of its instantaneous frequency,
     and among the pairs with a symbol-rate line the one that keys most clearly
-    between its two tones (:func:`_keying_contrast`) is kept: an FM receiver's noise fills the
+    between its two tones (:func:`analyzer.blind.keying_contrast`) is kept: an FM receiver's noise fills the
     voice band, shaped by its filters, and can pull the frequency modes or
     raise a peak of its own.
     """
@@ -872,13 +871,13 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
             pairs += acquire.peak_tone_pairs(x, fs, band)
     found, score = None, -1.0
     for tones in pairs:
-        got = _blind_rate(x, fs, tones) if opts.symbol_rate_hz is None else (float(opts.symbol_rate_hz),
+        got = blind.blind_rate(x, fs, tones) if opts.symbol_rate_hz is None else (float(opts.symbol_rate_hz),
                                                                               float("inf"))
         if got is None:
             continue
         # among pairs with a symbol-rate line, the one that keys most clearly between its tones
-        sc = _keying_contrast(x, fs, tones, got[0]) if len(pairs) > 1 and got[1] >= BLIND_MIN_LINE_QUALITY \
-            else 0.0
+        clear_line = len(pairs) > 1 and got[1] >= blind.BLIND_MIN_LINE_QUALITY
+        sc = blind.keying_contrast(x, fs, tones, got[0]) if clear_line else 0.0
         if found is None or sc > score:
             found, score = (tones, *got), sc
     if found is None:
@@ -886,90 +885,12 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
              "give --baud to analyse it")
         return None
     tones, rs, quality = found
-    if quality < BLIND_MIN_LINE_QUALITY:
+    if quality < blind.BLIND_MIN_LINE_QUALITY:
         warn(f"{path}: the candidate burst near sample {start} ({len(x)} samples) shows no symbol-rate "
-             f"line (quality {quality:.1f}, below {BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
+             f"line (quality {quality:.1f}, below {blind.BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
              "unkeyed carrier, not analysed; give --tones and --baud to analyse it anyway")
         return None
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
-
-
-def _keying_contrast(x: np.ndarray, fs: float, tones, rate: float) -> float:
-    """``sum ||z1|^2 - |z0|^2| / sum (|z0|^2 + |z1|^2)`` over one-symbol windows at every start.
-
-    Near 1 when each window holds one tone or the other (the two tones of an FSK
-    burst, however unequal); lower when one template sits on noise that fills
-    every window (a peak of a receiver's shaped noise).
-    """
-    w = int(np.floor(fs / rate))
-    if w < 2 or len(x) < 4 * w:
-        return 0.0
-    n = len(x) - w + 1
-    c = branches.window_energy(x, 0, 0, n, w, tones, fs, metric="contrast")
-    e = branches.window_energy(x, 0, 0, n, w, tones, fs)
-    total = float(np.sum(e))
-    return float(np.sum(c) / total) if total > 0 else 0.0
-
-
-def _blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
-    """Symbol rate and its timing-line quality with no hint, for the tones ``tones``; None if none."""
-    trans = acquire.tone_transitions(x, fs, tones)        # shared by every rate tried below
-    rs = acquire.blind_symbol_rate(x, fs, tones, transitions=trans)
-    if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
-        return None
-    # the transition line can lock to a harmonic or a spur on weak bursts:
-    # keep, among the rate and its sub-multiples, the one whose timing line
-    # (see acquire.symbol_timing) stands out most
-    # (the energy trace is periodic at the symbol rate, so its harmonics carry
-    # lines too -- at high SNR about as strong: the lowest rate whose line is
-    # at least half as strong as the strongest is the symbol rate)
-    tried = []
-    cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones, transitions=trans)
-    energies: dict[int, branches.EnergyTrace] = {}      # one per window length
-    for cand in cands:
-        if fs / cand > len(x) / 16:
-            continue
-        w = int(np.floor(fs / cand))
-        if w not in energies:
-            energies[w] = branches.energy_trace(x, 0, w, tones, fs)
-        tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
-                                           transitions=trans))
-    if not tried:
-        return None
-    top = max(t.line_snr for t in tried)
-    strongest = max(tried, key=lambda t: t.line_snr).symbol_rate_hz
-    # the rate, not a harmonic: the lowest rate whose line is at least half the strongest,
-    # or a sub-multiple R/2..R/4 of the strongest whose own line still stands out clearly
-    # (short windows can make a harmonic's line several times the symbol rate's own)
-    # (a lower rate than the strongest's must itself clear twice the line threshold: on a short
-    # burst every line is weak, and half the rate can come within a factor of two by chance)
-    clear = [t for t in tried if t.line_snr >= 2 * BLIND_MIN_LINE_QUALITY and (
-        t.line_snr >= 0.5 * top
-        or (t.line_snr >= HARMONIC_LINE_SHARE * top and _sub_multiple(strongest, t.symbol_rate_hz)))]
-    # with no line that clear (a weak burst, or noise), the lowest rate within a factor two of the
-    # strongest, whose quality then decides whether it is analysed at all
-    best = min(clear or [t for t in tried if t.line_snr >= 0.5 * top], key=lambda t: t.symbol_rate_hz)
-    return float(best.symbol_rate_hz), float(best.line_snr)
-
-
-#: A sub-multiple R/k (k = 2..4) of the rate with the strongest timing line is taken
-#: for the symbol rate when its own line is at least this share of the strongest
-#: (1200 Bd AFSK audio at 20 dB: the 3600 Bd window's line 566, the 1200 Bd one 175;
-#: a Gaussian BT 0.3 burst with random phase at 30 dB: 7200 Bd 2284, 2400 Bd 325;
-#: the spurious 400 Bd one 13).
-HARMONIC_LINE_SHARE = 0.1
-
-
-def _sub_multiple(rate: float, cand: float) -> bool:
-    """Whether ``cand`` is ``rate / k`` for k = 2, 3 or 4 (within 0.2%: both lines are measured to a few ppm)."""
-    k = rate / cand
-    return any(abs(k - m) < 0.002 * m for m in (2, 3, 4))
-
-
-#: Blind, a region whose best timing line stands less than this far above the
-#: spectrum around it (see acquire.TimingEstimate.line_snr) is not taken as a
-#: burst: below about 10 the line is as likely a noise peak.
-BLIND_MIN_LINE_QUALITY = 10.0
 
 
 def _receiver_input(x: np.ndarray, kind: str) -> np.ndarray:
