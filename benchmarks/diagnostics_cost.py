@@ -21,6 +21,7 @@ import sys
 import tempfile
 import time
 from pathlib import Path
+from analyzer.pipeline import _pipeline  # private kernel, tested directly
 
 PARTS = ("model_checks", "output_correlations", "cross_branch_check", "ebn0_trend", "measured_pulse",
          "idle_power_check", "leakage", "noise_correlation", "noise_window_outputs", "loss_parts",
@@ -38,7 +39,7 @@ def main() -> int:
     from analyzer import diagnostics, pipeline
 
     calls = []
-    orig = pipeline._diagnose
+    orig = _pipeline._diagnose
 
     def record(*a):
         calls.append(a)
@@ -46,11 +47,11 @@ def main() -> int:
 
     with tempfile.TemporaryDirectory() as tmp:
         meta = throughput.write_capture(Path(tmp) / "bursts", 8_000_000)
-        pipeline._diagnose = record
+        _pipeline._diagnose = record
         try:
             pipeline.analyze(meta, tones_hz=throughput.TONES, symbol_rate_hz=throughput.BAUD, workers=1)
         finally:
-            pipeline._diagnose = orig
+            _pipeline._diagnose = orig
     print(f"{len(calls)} bursts")
 
     spent = {name: 0.0 for name in PARTS}
@@ -76,7 +77,7 @@ def main() -> int:
             try:
                 t = time.perf_counter()
                 for c in calls:
-                    pipeline._diagnose(*c)
+                    _pipeline._diagnose(*c)
                 whole = time.perf_counter() - t
             finally:
                 for name in PARTS:

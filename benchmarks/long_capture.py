@@ -56,14 +56,14 @@ def write_capture(base: Path, n_samples: int, seed: int = 2) -> Path:
     """``base.sigmf-data/-meta``: noise with N_BURSTS evenly spaced bursts, and its SHA-512."""
     import sigmf
 
-    from analyzer import prbs
+    from analyzer import errorcount
 
     rng = np.random.default_rng(seed)
     sps = int(FS / BAUD)
     sigma = AMPLITUDE * np.sqrt(sps / 10 ** (EBN0_DB / 10))
     period = n_samples // N_BURSTS
     starts = period // 2 + period * np.arange(N_BURSTS)
-    bits = prbs.prbs_sequence("PN9", BURST_SYMBOLS * N_BURSTS)
+    bits = errorcount.prbs_sequence("PN9", BURST_SYMBOLS * N_BURSTS)
     freq = np.asarray(TONES)[bits]
     phase0 = rng.uniform(0, 2 * np.pi, bits.size)
     sha = hashlib.sha512()

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pytest
 from typer.testing import CliRunner
 
-from analyzer import writers
+from analyzer import capture
 from analyzer.cli import app
 from analyzer.synth import SynthParams, synthesize
 
@@ -18,7 +18,7 @@ def make_capture(tmp_path):
         kw.setdefault("symbols_per_burst", 2000)
         kw.setdefault("ebn0_db", 12.0)
         res = synthesize(SynthParams(**{"continuous_phase": False, **kw}))
-        return writers.write_sigmf(tmp_path / name, res.samples, 80e3, centre_hz=centre_hz, truth=res.truth)
+        return capture.write_sigmf(tmp_path / name, res.samples, 80e3, centre_hz=centre_hz, truth=res.truth)
 
     return make
 

@@ -10,7 +10,7 @@ import warnings
 import pytest
 from sigmf import sigmffile, validate
 
-from analyzer import writers
+from analyzer import capture
 from analyzer.synth import SynthParams, synthesize
 
 CENTRE = 868.3e6
@@ -56,7 +56,7 @@ def test_annotated_copy_validates_and_original_unchanged(tmp_path, make_capture,
 def test_annotate_refuses_audio(tmp_path, run_cli):
     res = synthesize(SynthParams(continuous_phase=False, symbols_per_burst=300, real=True, tones_hz=(1200.0, 2200.0),
                                  symbol_rate_hz=1000.0, sample_rate_hz=16000.0))
-    wav = writers.write_audio(tmp_path / "a.wav", res.samples, 16000)
+    wav = capture.write_audio(tmp_path / "a.wav", res.samples, 16000)
     r = run_cli("analyze", wav, "--tones", "1200,2200", "--baud", "1000", "--out", tmp_path / "o", "--annotate")
     assert r.exit_code == 2
     assert "SigMF" in r.output

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import pytest
 
-from analyzer import writers
+from analyzer import capture
 from analyzer.synth import SynthParams, synthesize
 
 
@@ -31,7 +31,7 @@ def test_synth_refuses_audio_tones_outside_0_to_half_the_rate(run_cli, tmp_path,
 def test_analyze_refuses_audio_tones_outside_0_to_half_the_rate(run_cli, tmp_path, tones):
     x = synthesize(SynthParams(tones_hz=(1200.0, 2200.0), symbol_rate_hz=1200.0, sample_rate_hz=48000.0,
                                symbols_per_burst=100, real=True)).samples
-    wav = writers.write_audio(tmp_path / "a.wav", x, 48000)
+    wav = capture.write_audio(tmp_path / "a.wav", x, 48000)
     r = run_cli("analyze", wav, "--tones", tones, "--baud", "1200", "--out", tmp_path / "o")
     _one_error_line(r, "outside the sample band [0, 24000] Hz", "above 0 and below half the sample rate")
     assert not (tmp_path / "o").exists() or not any((tmp_path / "o").iterdir())

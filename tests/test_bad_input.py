@@ -16,7 +16,7 @@ import pytest
 import soundfile as sf
 from typer.testing import CliRunner
 
-from analyzer import writers
+from analyzer import capture
 from analyzer.cli import app
 from analyzer.synth import SynthParams, synthesize
 
@@ -58,7 +58,7 @@ def _warnings(r):
 
 
 def _sigmf(tmp_path, x, name="cap", datatype="cf32_le"):
-    return writers.write_sigmf(tmp_path / name, x, FS, datatype=datatype)
+    return capture.write_sigmf(tmp_path / name, x, FS, datatype=datatype)
 
 
 def _edit_meta(meta, fn):
@@ -254,7 +254,7 @@ def test_audio_tones_below_zero_are_outside_the_band(tmp_path):
     x = synthesize(SynthParams(continuous_phase=False,
                                tones_hz=(1200.0, 2200.0), symbol_rate_hz=1200.0, sample_rate_hz=48000.0,
                                symbols_per_burst=100, real=True)).samples
-    p = writers.write_audio(tmp_path / "a.wav", x, 48000)
+    p = capture.write_audio(tmp_path / "a.wav", x, 48000)
     r = _run([p, "--tones", "-1200,2200", "--baud", "1200"], tmp_path / "o")
     # real audio has the band [0, fs/2] (Nyquist)
     _assert_error(r, tmp_path / "o", "outside the sample band", "[0, 24000]")
@@ -286,7 +286,7 @@ def test_output_equal_to_an_input(tmp_path, which):
 
 
 def test_default_report_name_equal_to_a_raw_input(tmp_path):
-    p = writers.write_raw(tmp_path / "cap.json", _samples(symbols_per_burst=100), "cf32")
+    p = capture.write_raw(tmp_path / "cap.json", _samples(symbols_per_burst=100), "cf32")
     before = _sha(p)
     r = runner.invoke(app, ["analyze", str(p), *HINTS, "--rate", "80000", "--format", "cf32", "--out",
                             str(tmp_path), "--overwrite", "--quiet"])
@@ -303,10 +303,10 @@ def test_inputs_unchanged_by_analysis(tmp_path, kind):
         files = [p, tmp_path / "cap.sigmf-data"]
         extra = []
     elif kind == "wav":
-        p = writers.write_audio(tmp_path / "cap.wav", x, 80000)
+        p = capture.write_audio(tmp_path / "cap.wav", x, 80000)
         files, extra = [p], []
     else:
-        p = writers.write_raw(tmp_path / "cap.ci16", x, "ci16")
+        p = capture.write_raw(tmp_path / "cap.ci16", x, "ci16")
         files, extra = [p], ["--rate", "80000", "--format", "ci16"]
     before = [_sha(f) for f in files]
     names = sorted(q.name for q in tmp_path.iterdir())

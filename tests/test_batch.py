@@ -18,7 +18,7 @@ from pathlib import Path
 
 import pytest
 
-from analyzer import writers
+from analyzer import capture
 from analyzer.synth import SynthParams, synthesize
 
 NUMBERS = ("ebn0_db", "ber", "errors", "bits", "n_bursts")
@@ -29,7 +29,7 @@ def captures(tmp_path_factory):
     d = tmp_path_factory.mktemp("batch")
     for i, ebn0 in enumerate((9.0, 11.0, 14.0)):
         res = synthesize(SynthParams(continuous_phase=False, symbols_per_burst=700, ebn0_db=ebn0, seed=10 + i))
-        writers.write_sigmf(d / f"cap{i}", res.samples, 80e3, truth=res.truth)
+        capture.write_sigmf(d / f"cap{i}", res.samples, 80e3, truth=res.truth)
     (d / "broken.sigmf-meta").write_text('{"global": ')
     return d
 

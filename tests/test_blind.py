@@ -24,7 +24,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from analyzer import pipeline, theory, writers
+from analyzer import pipeline, theory, capture
 from analyzer.capture import ArrayCapture
 from analyzer.synth import SynthParams, synthesize
 
@@ -124,7 +124,7 @@ def test_receiver_audio_bell_202(tmp_path, container):
                          ebn0_db=ebn0, symbols_per_burst=3000, real=True, continuous_phase=True, seed=71,
                          start_offset_samples=6000.0)
     res = synthesize(params)
-    path = writers.write_audio(tmp_path / f"rx.{container}", res.samples, 48000, truth=res.truth)
+    path = capture.write_audio(tmp_path / f"rx.{container}", res.samples, 48000, truth=res.truth)
     out = pipeline.analyze(path)
     b = out.bursts[0]
     assert out.capture.kind == "audio"
@@ -147,7 +147,7 @@ def test_receiver_audio_bell_202(tmp_path, container):
 def test_stereo_iq_wav_blind(tmp_path):
     params = SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=3000, centre_offset_hz=700.0, seed=81)
     res = synthesize(params)
-    path = writers.write_audio(tmp_path / "iq.wav", res.samples, 80000, truth=res.truth)
+    path = capture.write_audio(tmp_path / "iq.wav", res.samples, 80000, truth=res.truth)
     out = pipeline.analyze(path)
     b = out.bursts[0]
     assert np.all(np.abs(np.array(b.tones_hz) - res.truth["bursts"][0]["tones_hz"]) < 50.0)
@@ -180,7 +180,7 @@ def test_receiver_audio_random_phase_ebn0(tmp_path, seed):
                          ebn0_db=10.0, symbols_per_burst=3000, real=True, continuous_phase=False, seed=seed,
                          start_offset_samples=4000.0)
     res = synthesize(params)
-    path = writers.write_audio(tmp_path / "rx.wav", res.samples, 48000, subtype="FLOAT", truth=res.truth)
+    path = capture.write_audio(tmp_path / "rx.wav", res.samples, 48000, subtype="FLOAT", truth=res.truth)
     out = pipeline.analyze(path, tones_hz=(1200.0, 2400.0), symbol_rate_hz=1200.0)
     assert abs(out.summary.stats.ebn0_db - 10.0) < 0.3
     # and the error count inside the 1 - 1e-5 band of 1/2 exp(-Eb/2N0) (Proakis & Salehi, from memory)

@@ -15,9 +15,11 @@ import re
 import numpy as np
 import pytest
 
-from analyzer import pipeline, writers
+from analyzer import pipeline, capture
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
+from analyzer.cli import _commands  # private: the progress bar has no public door
+from analyzer.pipeline import _pipeline  # private: region limits and the reader patched in tests
 
 
 def _numbers(obj, path=""):
@@ -41,7 +43,7 @@ def dc_capture(tmp_path_factory):
                                  n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
                                  start_offset_samples=3000.5, seed=7))
     x = res.samples + (0.01 - 0.004j)
-    return writers.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
+    return capture.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
 
 
 @pytest.mark.parametrize("hints", [True, False])
@@ -75,9 +77,9 @@ def test_dc_offset_matches_numpy_mean_of_whole_file(dc_capture):
 def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
     """A region longer than MAX_REGION_SAMPLES is cut: no read of the bursts exceeds the limit."""
     limit = 16384
-    monkeypatch.setattr(pipeline, "MAX_REGION_SAMPLES", limit)
+    monkeypatch.setattr(_pipeline, "MAX_REGION_SAMPLES", limit)
     sizes = []
-    real_reader = pipeline._reader
+    real_reader = _pipeline._reader
 
     def spy(cap, dc):
         r = real_reader(cap, dc)
@@ -87,7 +89,7 @@ def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
             return r(start, count)
         return read
 
-    monkeypatch.setattr(pipeline, "_reader", spy)
+    monkeypatch.setattr(_pipeline, "_reader", spy)
     res = pipeline.analyze(dc_capture, tones_hz=(-2500, 2500), symbol_rate_hz=5000, block=pipeline.QUANTUM)
     region_reads = [s for s in sizes if s != pipeline.QUANTUM]
     assert region_reads and max(region_reads) <= limit                  # bound: the limit itself
@@ -123,36 +125,36 @@ def test_no_progress_bar_when_not_a_terminal(dc_capture, tmp_path, run_cli):
 
 
 def test_progress_bar_only_on_a_terminal(monkeypatch):
-    from analyzer import commands
 
     class Tty:
         def isatty(self):
             return True
 
-    assert commands._progress_bar(quiet=False) == (None, None)          # pytest's stdout is no terminal
-    monkeypatch.setattr(commands.sys, "stdout", Tty())
-    prog, cb = commands._progress_bar(quiet=False)
+    assert _commands._progress_bar(quiet=False) == (None, None)          # pytest's stdout is no terminal
+    monkeypatch.setattr(_commands.sys, "stdout", Tty())
+    prog, cb = _commands._progress_bar(quiet=False)
     assert prog is not None and callable(cb)
     cb(5, 20, "spectrum")
     assert (prog.done, prog.total, prog.stage) == (5, 20, "spectrum")   # exact
-    assert commands._progress_bar(quiet=True) == (None, None)
+    assert _commands._progress_bar(quiet=True) == (None, None)
 
 
 _WORKER_CHECK = r"""
 import json, os, sys
 from analyzer import pipeline
+from analyzer.pipeline import _pipeline
 from analyzer.errors import warn
 from analyzer.report import json_report
 meta, out = sys.argv[1], sys.argv[2]
 kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
 one = json_report.build_report(pipeline.analyze(meta, workers=1, block=8192, **kw))
-real = pipeline._region_bursts
+real = _pipeline._region_bursts
 def spy(*args):
     warn(f"pid {os.getpid()}")                  # carried back with the region's warnings
     return real(*args)
-pipeline._region_bursts = spy
+_pipeline._region_bursts = spy
 # the survey pass too: shared by the workers for any capture longer than a block
-from analyzer import survey
+from analyzer.survey import _pass as survey
 survey.PARALLEL_MIN_SAMPLES = 1
 real_task, real_merge, seen = survey._stretch_task, survey._merge, []
 def stretch_spy(ctx, lo, hi):
@@ -180,7 +182,7 @@ def test_worker_processes_give_the_same_report(tmp_path):
 
     res = synthesize(SynthParams(continuous_phase=False,
                                  n_bursts=6, symbols_per_burst=300, gap_samples=9000.0, ebn0_db=10.0, seed=3))
-    meta = writers.write_sigmf(tmp_path / "six", res.samples, 80e3, truth=res.truth)
+    meta = capture.write_sigmf(tmp_path / "six", res.samples, 80e3, truth=res.truth)
     out = tmp_path / "check.json"
     subprocess.run([sys.executable, "-c", _WORKER_CHECK, str(meta), str(out)], check=True, timeout=300)
     got = json.loads(out.read_text())
@@ -197,11 +199,11 @@ def test_shared_arrays_carry_what_a_forked_worker_writes():
     # reference: the values the worker wrote (exact), seen by the parent without being sent back
     import multiprocessing
 
-    from analyzer import workers
+    from analyzer import parallel
 
     if "fork" not in multiprocessing.get_all_start_methods():
         pytest.skip("needs fork")
-    a, b = workers.shared_zeros(5, (np.float64, np.complex128))
+    a, b = parallel.shared_zeros(5, (np.float64, np.complex128))
     assert np.all(a == 0) and np.all(b == 0)                      # zero-filled (exact)
 
     def write():

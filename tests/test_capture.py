@@ -15,7 +15,7 @@ import soundfile as sf
 from hypothesis import given, settings, HealthCheck, strategies as st
 from sigmf import sigmffile
 
-from analyzer import capture, writers
+from analyzer import capture
 from analyzer.capture import open_capture, read_all
 from analyzer.errors import CaptureWarning, InputError
 from analyzer.synth import SynthParams, synthesize
@@ -50,7 +50,7 @@ def _sigmf_read(meta_path):
 # ----------------------------------------------------------------- SigMF round trips
 def test_cf32_roundtrip_equals_sigmf_reader_and_truth(tmp_path):
     res = _synth()
-    meta = writers.write_sigmf(tmp_path / "cap", res.samples, 80e3, centre_hz=433.92e6, truth=res.truth)
+    meta = capture.write_sigmf(tmp_path / "cap", res.samples, 80e3, centre_hz=433.92e6, truth=res.truth)
     cap = open_capture(meta)
     x = read_all(cap)
     rec, ref = _sigmf_read(meta)
@@ -69,7 +69,7 @@ def test_cf32_roundtrip_equals_sigmf_reader_and_truth(tmp_path):
 
 def test_ci16_roundtrip_within_one_lsb(tmp_path):
     res = _synth(ebn0_db=30.0)          # little noise: no clipping at 0.25 full scale
-    meta = writers.write_sigmf(tmp_path / "i16", res.samples, 80e3, datatype="ci16_le")
+    meta = capture.write_sigmf(tmp_path / "i16", res.samples, 80e3, datatype="ci16_le")
     cap = open_capture(meta)
     x = read_all(cap)
     _, ref = _sigmf_read(meta)
@@ -83,7 +83,7 @@ def test_ci16_roundtrip_within_one_lsb(tmp_path):
 
 def test_sigmf_opens_by_meta_data_or_base_name(tmp_path):
     res = _synth(symbols_per_burst=50)
-    meta = writers.write_sigmf(tmp_path / "rec", res.samples, 80e3)
+    meta = capture.write_sigmf(tmp_path / "rec", res.samples, 80e3)
     caps = [open_capture(p) for p in (meta, tmp_path / "rec.sigmf-data", tmp_path / "rec")]
     # reference: the sigmf package's sample count for the same recording
     rec, _ = _sigmf_read(meta)
@@ -189,7 +189,7 @@ def test_header_bytes_and_segments_follow_sigmf(tmp_path):
 
 def test_checksum_mismatch_warns_and_still_reads(tmp_path):
     res = _synth(symbols_per_burst=50)
-    writers.write_sigmf(tmp_path / "c", res.samples, 80e3)
+    capture.write_sigmf(tmp_path / "c", res.samples, 80e3)
     doc = json.loads((tmp_path / "c.sigmf-meta").read_text())
     doc["global"]["core:sha512"] = "0" * 128
     bad = tmp_path / "bad.sigmf-meta"
@@ -225,7 +225,7 @@ def test_invalid_sigmf_metadata_is_an_input_error(tmp_path):
                                             ("ci16", "<i2", 1 / 32768), ("cf32", "<f4", 0.0)])
 def test_raw_roundtrip_against_numpy_fromfile(tmp_path, fmt, np_dt, step):
     res = _synth(ebn0_db=40.0, symbols_per_burst=100)
-    path = writers.write_raw(tmp_path / f"x.{fmt}", res.samples, fmt)
+    path = capture.write_raw(tmp_path / f"x.{fmt}", res.samples, fmt)
     cap = open_capture(path, rate=80e3, fmt=fmt)
     x = read_all(cap)
     stored = np.fromfile(path, dtype=np_dt).astype(np.float64)       # reference: numpy.fromfile
@@ -307,7 +307,7 @@ def test_unusable_files_are_input_errors(tmp_path, case):
 def test_stereo_audio_is_iq(tmp_path, name, subtype, step):
     res = _synth(sample_rate_hz=48000.0, symbol_rate_hz=1200.0, tones_hz=(-1000.0, 1200.0),
                  symbols_per_burst=100, ebn0_db=40.0)
-    path = writers.write_audio(tmp_path / name, res.samples, 48000, subtype=subtype, truth=res.truth)
+    path = capture.write_audio(tmp_path / name, res.samples, 48000, subtype=subtype, truth=res.truth)
     cap = open_capture(path)
     x = read_all(cap)
     ref, rate = sf.read(path, dtype="float64", always_2d=True)   # reference: soundfile
@@ -322,7 +322,7 @@ def test_stereo_audio_is_iq(tmp_path, name, subtype, step):
 
 def _cosine_capture(tmp_path, n=96000, fs=48000, f=1200.0, amp=0.5, phase=0.4):
     t = np.arange(n) / fs
-    path = writers.write_audio(tmp_path / "mono.wav", amp * np.cos(2 * np.pi * f * t + phase), fs)
+    path = capture.write_audio(tmp_path / "mono.wav", amp * np.cos(2 * np.pi * f * t + phase), fs)
     return open_capture(path), t
 
 
@@ -359,7 +359,7 @@ def test_mono_block_reads_match_whole_file_hilbert(tmp_path):
 
 def test_capture_survives_pickling(tmp_path):
     res = _synth(symbols_per_burst=50)
-    cap = open_capture(writers.write_sigmf(tmp_path / "p", res.samples, 80e3))
+    cap = open_capture(capture.write_sigmf(tmp_path / "p", res.samples, 80e3))
     again = pickle.loads(pickle.dumps(cap))
     # reference: numpy.fromfile of the cf32_le dataset
     ref = np.fromfile(tmp_path / "p.sigmf-data", dtype="<c8")

@@ -18,7 +18,7 @@ import numpy as np
 import pytest
 from scipy import signal, stats
 
-from analyzer import survey, writers
+from analyzer import survey, capture
 from analyzer.synth import SynthParams, synthesize
 
 KS_ALPHA = 1e-5      # false-failure probability of each KS check (the level of the test itself)
@@ -63,7 +63,7 @@ def test_an_offset_well_above_the_mean_noise_is_found():
 def test_no_dc_warning_on_clean_captures(run_cli, tmp_path, args):
     # false-failure probability: DC_FALSE_ALARM = 1e-6 per capture
     res = synthesize(SynthParams(**args))
-    meta = writers.write_sigmf(tmp_path / "c", res.samples, 80e3, truth=res.truth)
+    meta = capture.write_sigmf(tmp_path / "c", res.samples, 80e3, truth=res.truth)
     r = run_cli("analyze", meta, "--tones", "-2500,2500", "--baud", "5000", "--out", tmp_path / "o")
     assert r.exit_code == 0, r.output
     rep = json.loads((tmp_path / "o" / "c.json").read_text())
@@ -74,7 +74,7 @@ def test_audio_dc_warning_speaks_of_the_mean_sample_value(run_cli, tmp_path):
     p = SynthParams(tones_hz=(1200.0, 2200.0), symbol_rate_hz=1200.0, sample_rate_hz=48000.0, real=True,
                     ebn0_db=14.0, symbols_per_burst=600)
     x = synthesize(p).samples + 0.05
-    wav = writers.write_audio(tmp_path / "a.wav", x, 48000)
+    wav = capture.write_audio(tmp_path / "a.wav", x, 48000)
     r = run_cli("analyze", wav, "--out", tmp_path / "o")
     assert r.exit_code == 0, r.output
     warns = [w for w in json.loads((tmp_path / "o" / "a.json").read_text())["warnings"] if "DC offset" in w]

@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from sigmf import hashing
 
-from analyzer import digest, pipeline
+from analyzer import capture, pipeline
 from analyzer.errors import InputError
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
@@ -36,9 +36,9 @@ def test_file_digest_matches_sigmf_hashing_for_any_reads(tmp_path):
     ref = hashing.calculate_sha512(filename=path)        # reference: the sigmf package
     assert ref == hashlib.sha512(data).hexdigest()      # reference: hashlib
     for block in (1, 4096, 77_777, 1 << 24):
-        assert digest.file_sha512(path, block) == ref   # exact
+        assert capture.file_sha512(path, block) == ref   # exact
     # reads fed in order, overlapping, with gaps and repeats: gaps read by the digest, repeats skipped
-    d = digest.FileDigest(path, block=1000)
+    d = capture.FileDigest(path, block=1000)
     pos = 0
     while pos < len(data):
         a = max(0, pos - int(rng.integers(0, 50)))        # overlaps what is hashed already
@@ -113,14 +113,14 @@ def test_cf32_pass_reads_each_sample_byte_once(tmp_path, monkeypatch):
     trailing bytes (reference: the file layout, SigMF 1.x)."""
     meta = _write(tmp_path, "once", "cf32_le")
     own = []
-    real = digest.FileDigest._read_to
+    real = capture.FileDigest._read_to
 
     def spy(self, end):
         before = self.done
         real(self, end)
         own.append(self.done - before)
 
-    monkeypatch.setattr(digest.FileDigest, "_read_to", spy)
+    monkeypatch.setattr(capture.FileDigest, "_read_to", spy)
     r = pipeline.analyze(meta, workers=1, **HINTS)
     assert _checksum_warnings(r) == []
     assert sum(own) == sum(HEADERS) + TRAILING               # exact
@@ -142,7 +142,9 @@ def _numbers(obj, path=""):
 
 _WORKERS_CHECK = r"""
 import json, sys
-from analyzer import digest, pipeline, survey
+from analyzer import pipeline
+from analyzer.survey import _pass as survey
+from analyzer.capture import _digest as digest
 from analyzer.errors import InputError
 from analyzer.report import json_report
 survey.PARALLEL_MIN_SAMPLES = 1           # the pass shared by workers even for this short capture

@@ -26,9 +26,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from analyzer import frames, pipeline, theory, writers
+from analyzer import errorcount, pipeline, theory, capture
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
+from analyzer.errorcount import _frames  # private kernel, tested directly
 
 DATA = Path(__file__).parent / "data"
 REAL = DATA / "afsk1200_satellite_downlink.wav"
@@ -58,25 +59,25 @@ def _crc_bitwise(data: bytes) -> int:
 # --------------------------------------------------------------------------- frame check sequence
 def test_crc_check_value_and_bitwise_reference():
     # check value 0x906E (common practice, from memory)
-    assert frames.crc16_x25(b"123456789") == 0x906E
+    assert errorcount.crc16_x25(b"123456789") == 0x906E
     assert _crc_bitwise(b"123456789") == 0x906E
     rng = np.random.default_rng(5)
     for n in (0, 1, 2, 7, 64, 301):
         data = rng.integers(0, 256, n, dtype=np.uint8).tobytes()
-        assert frames.crc16_x25(data) == _crc_bitwise(data)
+        assert errorcount.crc16_x25(data) == _crc_bitwise(data)
         # FCS sent low octet first; over frame and FCS the register ends at 0xF0B8 (ITU-T X.25, from memory),
         # i.e. the complemented CRC is 0xF0B8 ^ 0xFFFF = 0x0F47
-        assert _crc_bitwise(data + frames.fcs_bytes(data)) == 0xF0B8 ^ 0xFFFF
+        assert _crc_bitwise(data + errorcount.fcs_bytes(data)) == 0xF0B8 ^ 0xFFFF
 
 
 # --------------------------------------------------------------------------- line coding
 def test_nrzi_hand_worked():
     # ISO/IEC 13239 NRZI (from memory): a change of tone is 0, no change is 1
     tones = np.array([0, 0, 1, 1, 0, 1, 1, 1], np.uint8)
-    assert frames.nrzi_decode(tones).tolist() == [1, 0, 1, 0, 0, 1, 1]
-    assert frames.nrzi_encode([1, 0, 1, 0, 0, 1, 1], first_tone=0).tolist() == tones.tolist()
+    assert errorcount.nrzi_decode(tones).tolist() == [1, 0, 1, 0, 0, 1, 1]
+    assert errorcount.nrzi_encode([1, 0, 1, 0, 0, 1, 1], first_tone=0).tolist() == tones.tolist()
     # polarity-independent: the inverted tones give the same bits
-    assert frames.nrzi_decode(1 - tones).tolist() == [1, 0, 1, 0, 0, 1, 1]
+    assert errorcount.nrzi_decode(1 - tones).tolist() == [1, 0, 1, 0, 0, 1, 1]
 
 
 @pytest.mark.parametrize("bits, stuffed", [
@@ -89,44 +90,44 @@ def test_nrzi_hand_worked():
 ])
 def test_zero_bit_insertion_hand_worked(bits, stuffed):
     b = np.array([int(c) for c in bits], np.uint8)
-    s = frames.insert_stuffing(b)
+    s = errorcount.insert_stuffing(b)
     assert "".join(map(str, s)) == stuffed
-    back, aborted = frames.remove_stuffing(s)
+    back, aborted = errorcount.remove_stuffing(s)
     assert "".join(map(str, back)) == bits and not aborted
 
 
 def test_flags_and_abort_hand_worked():
     # two flags sharing their 0 (ISO/IEC 13239 allows it, from memory): 011111101111110
     b = np.array([int(c) for c in "011111101111110"], np.uint8)
-    assert frames.flag_positions(b).tolist() == [0, 7]
+    assert errorcount.flag_positions(b).tolist() == [0, 7]
     # seven 1s are an abort
-    assert frames.remove_stuffing(np.array([int(c) for c in "0011111110"], np.uint8))[1]
+    assert errorcount.remove_stuffing(np.array([int(c) for c in "0011111110"], np.uint8))[1]
 
 
 def test_random_stuffed_content_never_holds_a_flag():
     rng = np.random.default_rng(2)
     data = rng.integers(0, 256, 4000, dtype=np.uint8).tobytes()
-    on_air = frames.frame_bits(data)
+    on_air = errorcount.frame_bits(data)
     run = 0
     longest = 0
     for v in on_air:                      # a straightforward count of the longest run of ones
         run = run + 1 if v else 0
         longest = max(longest, run)
     assert longest == 5                   # never six 1s, so never a flag or an abort (ISO/IEC 13239)
-    assert frames.flag_positions(on_air).size == 0
+    assert errorcount.flag_positions(on_air).size == 0
 
 
 # --------------------------------------------------------------------------- frames in tones
 def _traffic(n_frames=12, size=30, seed=3, flags_between=1):
     rng = np.random.default_rng(seed)
     payloads = [rng.integers(0, 256, size, dtype=np.uint8).tobytes() for _ in range(n_frames)]
-    return payloads, frames.encode_frames(payloads, preamble_flags=4, flags_between=flags_between, first_tone=1)
+    return payloads, errorcount.encode_frames(payloads, preamble_flags=4, flags_between=flags_between, first_tone=1)
 
 
 def test_frames_found_in_clean_traffic_either_polarity():
     payloads, tones = _traffic()
     for t in (tones, 1 - tones):
-        c = frames.count_frames(t)
+        c = errorcount.count_frames(t)
         assert (c.found, c.valid) == (12, 12)
         assert [f.data for f in c.frames] == payloads
         assert all(f.length_bytes == 30 for f in c.frames)
@@ -138,13 +139,13 @@ def test_frames_found_in_clean_traffic_either_polarity():
 
 def test_corrupted_tones_counted():
     payloads, tones = _traffic(n_frames=12, flags_between=3)
-    clean = frames.count_frames(tones)
+    clean = errorcount.count_frames(tones)
     bad = tones.copy()
     hit = [2, 7, 8]
     for i in hit:                          # one tone error in the middle of frames 2, 7 and 8
         f = clean.frames[i]
         bad[(f.start_symbol + f.stop_symbol) // 2] ^= 1
-    c = frames.count_frames(bad)
+    c = errorcount.count_frames(bad)
     assert (c.found, c.valid) == (12, 9)
     assert [i for i, f in enumerate(c.frames) if not f.fcs_valid] == hit
     assert c.error_rate == pytest.approx(3 / 12, abs=1e-12)
@@ -157,14 +158,14 @@ def test_corrupted_tones_counted():
     # a tone error in a flag between frames 4 and 5 (three flags between): the frame next to it is lost
     bad2 = tones.copy()
     bad2[clean.frames[4].stop_symbol + 3] ^= 1
-    c2 = frames.count_frames(bad2)
+    c2 = errorcount.count_frames(bad2)
     assert (c2.found, c2.valid) == (12, 11)
     # seven ones inside frame 6: an abort, found and not valid
     bad3 = tones.copy()
     f6 = clean.frames[6]
     a = f6.start_symbol + 40
     bad3[a:a + 9] = bad3[a - 1]           # no tone change over 8 symbols: eight 1s
-    c3 = frames.count_frames(bad3)
+    c3 = errorcount.count_frames(bad3)
     assert c3.found == 12 and c3.valid == 11 and c3.frames[6].aborted
 
 
@@ -179,28 +180,28 @@ def test_frame_error_counts_follow_the_binomial_law():
     p = 0.02
     rng = np.random.default_rng(12)
     flips = rng.random(tones.size) < p
-    c = frames.count_frames(tones ^ flips.astype(np.uint8))
+    c = errorcount.count_frames(tones ^ flips.astype(np.uint8))
     sent = set(payloads)
     intact = sum(f.fcs_valid and f.data in sent for f in c.frames)
-    bits = frames.frame_bits(payloads[0]).size
-    q = 1.0 - float(np.mean(frames.frame_error_rate(p, [frames.frame_bits(d).size for d in payloads])))
+    bits = errorcount.frame_bits(payloads[0]).size
+    q = 1.0 - float(np.mean(errorcount.frame_error_rate(p, [errorcount.frame_bits(d).size for d in payloads])))
     lo, hi = stats.binom.ppf(1e-5, n_frames, q), stats.binom.isf(1e-5, n_frames, q)
     assert lo <= intact <= hi
     # the model's value against the closed form (1 - p)^(n + 17) for one length
-    assert float(frames.frame_error_rate(p, bits)) == pytest.approx(1 - (1 - p) ** (bits + 17), rel=1e-12)
+    assert float(errorcount.frame_error_rate(p, bits)) == pytest.approx(1 - (1 - p) ** (bits + 17), rel=1e-12)
 
 
 def test_loss_from_frames_inverts_theory():
     # a frame error rate made by theory at 9 dB for 100 frames of 300 on-air bits gives back 0 dB of loss
     p = float(theory.ber_expected(10 ** 0.9))
-    fer = float(frames.frame_error_rate(p, 300))
+    fer = float(errorcount.frame_error_rate(p, 300))
     bad = int(round(fer * 100))
-    fr = tuple(frames.Frame(0, 300, 35, i >= bad, b"") for i in range(100))
-    c = frames._count(fr)
+    fr = tuple(errorcount.Frame(0, 300, 35, i >= bad, b"") for i in range(100))
+    c = _frames._count(fr)
     # the loss is measured Eb/N0 minus the Eb/N0 ideal BFSK needs for the tone error rate that gives this FER
-    p_meas = frames._tone_rate_for(c.error_rate, np.full(100, 300.0))
+    p_meas = _frames._tone_rate_for(c.error_rate, np.full(100, 300.0))
     expect = 9.0 - float(theory.ebn0_required_db(p_meas))
-    th = frames.frame_theory(10 ** 0.9, theory.LinkModel(), c, 9.0, (8.8, 9.2))
+    th = errorcount.frame_theory(10 ** 0.9, theory.LinkModel(), c, 9.0, (8.8, 9.2))
     assert th.loss.value == pytest.approx(expect, abs=1e-9)
     assert abs(th.loss.value) < 0.1       # the rounding of the count to whole frames only
     assert th.loss.ci95[0] < th.loss.value < th.loss.ci95[1]
@@ -212,7 +213,7 @@ def test_synth_framed_round_trip(tmp_path):
     params = SynthParams(framing="hdlc", frame_bytes=24, n_bursts=2, symbols_per_burst=2500, ebn0_db=16.0,
                          seed=4)
     res = synthesize(params)
-    meta = writers.write_sigmf(tmp_path / "fr", res.samples, params.sample_rate_hz, truth=res.truth)
+    meta = capture.write_sigmf(tmp_path / "fr", res.samples, params.sample_rate_hz, truth=res.truth)
     for ref in ("frames", "auto"):
         out = pipeline.analyze(meta, tones_hz=params.tones_hz, symbol_rate_hz=params.symbol_rate_hz, reference=ref,
                                workers=1)
@@ -236,7 +237,7 @@ def test_synth_framed_round_trip(tmp_path):
 def test_prbs_traffic_keeps_the_pattern_under_auto(tmp_path):
     params = SynthParams(symbols_per_burst=2000, ebn0_db=12.0)
     res = synthesize(params)
-    meta = writers.write_sigmf(tmp_path / "pn", res.samples, params.sample_rate_hz, truth=res.truth)
+    meta = capture.write_sigmf(tmp_path / "pn", res.samples, params.sample_rate_hz, truth=res.truth)
     out = pipeline.analyze(meta, tones_hz=params.tones_hz, symbol_rate_hz=params.symbol_rate_hz, workers=1)
     # a PN9 pattern (ITU-T O.150) syncs: frames are not the reference, and no random stretch passes for one
     assert out.bursts[0].ber is not None and out.bursts[0].frames is None
@@ -256,7 +257,7 @@ def test_cli_bits_and_frames_files(tmp_path, run_cli):
     assert lines[0].startswith("# burst 0") and set(lines[1]) <= {"0", "1"}
     truth = json.loads(cap.read_text())["global"]["tonepair:truth"]["bursts"][0]
     tones = np.frombuffer(lines[1].encode(), np.uint8) - ord("0")
-    assert [f.data.hex() for f in frames.find_frames(tones) if f.fcs_valid] == [f["hex"] for f in truth["frames"]]
+    assert [f.data.hex() for f in errorcount.find_frames(tones) if f.fcs_valid] == [f["hex"] for f in truth["frames"]]
     assert fr.read_text().split() == [f["hex"] for f in truth["frames"]]
     # not overwritten without --overwrite
     r = run_cli(*args)
@@ -276,5 +277,5 @@ def test_real_recording_bits_give_both_frames(tmp_path, run_cli):
     for head, row in zip(lines[::2], lines[1::2]):
         assert head.startswith("#")
         tones = np.frombuffer(row.encode(), np.uint8) - ord("0")
-        found += [f.data.hex() for f in frames.find_frames(tones) if f.fcs_valid]
+        found += [f.data.hex() for f in errorcount.find_frames(tones) if f.fcs_valid]
     assert found == REAL_FRAMES

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from analyzer import estimate, intervals, pipeline
+from analyzer import estimate, pipeline
 from analyzer.capture import ArrayCapture
 from analyzer.synth import SynthParams, synthesize
 
@@ -54,7 +54,7 @@ def test_reported_ebn0_interval_covers_95_percent():
     """The physical Eb/N0 (what the report states) from sample rows of ideal bursts: each symbol
     window holds a unit tone of random phase at the tone sent plus complex white noise of variance
     s2 per sample, so Eb/N0 = L / s2 with energy_scale 1 (the generator's definition by hand)."""
-    from analyzer import signal_energy
+    from analyzer import estimate
 
     n_runs, n_sym, L, fs, ebn0_db = 600, 1500, 16, 80000.0, 8.0
     tones = (-2500.0, 2500.0)
@@ -67,7 +67,7 @@ def test_reported_ebn0_interval_covers_95_percent():
         rows = np.exp(1j * (2 * np.pi * np.asarray(tones)[sent][:, None] * m / fs
                             + rng.uniform(0, 2 * np.pi, n_sym)[:, None]))
         rows += np.sqrt(s2 / 2) * (rng.standard_normal((n_sym, L)) + 1j * rng.standard_normal((n_sym, L)))
-        pe = signal_energy.physical_ebn0(signal_energy.energy_sums(rows, sent, tones, fs, real=False, scale=1.0))
+        pe = estimate.physical_ebn0(estimate.energy_sums(rows, sent, tones, fs, real=False, scale=1.0))
         lo, hi = pe.ebn0_db_ci95
         hits += lo <= ebn0_db <= hi
     lo, hi = _band(n_runs)
@@ -87,7 +87,7 @@ def tone_runs():
         res = pipeline.analyze_capture(ArrayCapture(r.samples, p.sample_rate_hz),
                                        pipeline.AnalysisOptions(p.tones_hz, p.symbol_rate_hz))
         b = res.bursts[0]
-        iv = intervals.burst_intervals(b.tones_hz, b.stats.gain_sq, b.stats.noise_var_complex, b.stats.n_symbols,
+        iv = estimate.burst_intervals(b.tones_hz, b.stats.gain_sq, b.stats.noise_var_complex, b.stats.n_symbols,
                                        b.grid.window, p.sample_rate_hz, 0.0)
         out.append((np.array(p.tones_hz) + 137.0, iv))
     return out
@@ -114,7 +114,7 @@ def test_correlation_interval_is_the_range_over_the_spacing_interval():
     # reference: |rho| of two unit tones over L samples is the Dirichlet kernel
     # |sin(pi df L / fs) / (L sin(pi df / fs))| (common practice), evaluated here with numpy
     fs, L = 80000.0, 16
-    iv = intervals.burst_intervals((-2500.0, 2600.0), (1.0, 1.0), (0.01, 0.01), (500, 500), L, fs)
+    iv = estimate.burst_intervals((-2500.0, 2600.0), (1.0, 1.0), (0.01, 0.01), (500, 500), L, fs)
     sd = np.hypot(*iv.tone_sd_hz)
     df = np.linspace(5100.0 - 1.959964 * sd, 5100.0 + 1.959964 * sd, 2001)
     rho = np.abs(np.sin(np.pi * df * L / fs) / (L * np.sin(np.pi * df / fs)))

@@ -23,6 +23,9 @@ from scipy import signal, special, stats
 
 from analyzer import acquire, branches, diagnostics, estimate
 from analyzer.estimate import GroupMoments
+from analyzer.acquire import _acquire  # private kernel, tested directly
+from analyzer.branches import _correlate  # private kernel, tested directly
+from analyzer.diagnostics import _diagnostics  # private kernel, tested directly
 
 
 @pytest.mark.parametrize("freq, first, count", [(12345.678, 0, 1000), (-0.31e6, 987_654_321, 5000),
@@ -60,7 +63,7 @@ def test_correlate_matches_direct_template_sums(first):
 def test_block_sums_match_numpy_sum(d):
     rng = np.random.default_rng(d)
     y = (rng.standard_normal((501, d)) + 1j * rng.standard_normal((501, d))) * 10.0 ** rng.integers(-3, 4, (501, d))
-    got = acquire._block_sums(y)
+    got = _acquire._block_sums(y)
     ref = np.sum(y, axis=1)                              # reference: numpy.sum along the rows
     # tolerance: rounding of d additions, relative to the sum of magnitudes
     assert np.all(np.abs(got - ref) <= 4 * d * 1.2e-16 * np.sum(np.abs(y), axis=1))
@@ -99,7 +102,7 @@ def test_window_products_equal_explicit_sums(sps):
     L = int(np.floor(sps + 0.02))
     base = rng.standard_normal((L, 2)) + 1j * rng.standard_normal((L, 2))
     first = np.ceil(7.3 + np.arange(1200) * sps - 1e-9).astype(np.int64)
-    got = branches._window_products(x, first, L, base)
+    got = _correlate._window_products(x, first, L, base)
     ref = np.array([x[s:s + L] @ base for s in first])
     np.testing.assert_allclose(got, ref, rtol=1e-12, atol=1e-12)          # rounding only
 
@@ -112,7 +115,7 @@ def test_line_search_matches_zoom_fft(n, ppm):
     t = np.arange(n)
     v = np.cos(2 * np.pi * rate * t / fs + 0.4) + 3.0 * rng.standard_normal(n)
     lo, hi = 50e3 * (1 - ppm * 1e-6), 50e3 * (1 + ppm * 1e-6)
-    got_rate, got_peak, got_q = acquire._line_search(v, fs, lo, hi)
+    got_rate, got_peak, got_q = _acquire._line_search(v, fs, lo, hi)
     res = fs / n
     f = np.arange(lo, hi, res / 64)
     ref = np.abs(signal.zoom_fft(v, [f[0], f[-1]], m=len(f), fs=fs, endpoint=True)) ** 2
@@ -509,7 +512,7 @@ def test_ln_i0_inverse_inverts_scipy_bessel():
 
     x = np.concatenate([np.linspace(0.0, 5.0, 501), np.geomspace(5.0, 5000.0, 300)])
     c = np.log(special.i0e(x)) + x                       # reference: ln I0(x) from scipy.special.i0e
-    got = diagnostics._ln_i0_inverse(c)
+    got = _diagnostics._ln_i0_inverse(c)
     np.testing.assert_allclose(got, x, rtol=1e-9, atol=1e-12)         # two Newton steps from the start
 
 
@@ -552,7 +555,7 @@ def test_likelihood_rule_error_matches_a_direct_integration():
         return np.exp(-0.5 * h * h)
 
     ref = integrate.quad(lambda r: stats.rice.pdf(r, g0) * tail(r), 0.0, g0 + 12.0, limit=200)[0]
-    got = float(diagnostics._lr_error_given(g0, g1)[0])
+    got = float(_diagnostics._lr_error_given(g0, g1)[0])
     assert got == pytest.approx(ref, rel=1e-8)            # quad's default relative tolerance, 1.5e-8
 
 
@@ -588,13 +591,13 @@ def _lr_reference(gs, go):
 def test_likelihood_rule_quadrature_matches_adaptive_quad(e_sent, e_other):
     gs, go = np.sqrt(2 * e_sent), np.sqrt(2 * e_other)
     ref = _lr_reference(gs, go)                            # reference: scipy.integrate.quad, epsrel 1e-12
-    got = diagnostics._lr_error_given(gs, go)
+    got = _diagnostics._lr_error_given(gs, go)
     assert got.shape == (1,)
     # tolerance: the composite Gauss-Legendre rule converges geometrically on each smooth piece
     # (about 1e-14 here); 1e-10 leaves room for the reference's own error
     assert got[0] == pytest.approx(ref, rel=1e-10, abs=1e-300)
     # several pairs in one call give each pair's value
-    both = diagnostics._lr_error_given([gs, go], [go, gs])
+    both = _diagnostics._lr_error_given([gs, go], [go, gs])
     assert both[0] == pytest.approx(got[0], rel=1e-15, abs=1e-300)
     assert both[1] == pytest.approx(_lr_reference(go, gs), rel=1e-10, abs=1e-300)
 
@@ -622,7 +625,7 @@ def test_ks_pvalues_match_scipy_kstwo(n):
     rng = np.random.default_rng(n)
     # distances over the whole law: the Pelz-Good range (n d^2 < 2.2) densely, and beyond it
     d = np.concatenate([np.linspace(0.3, 1.6, 300) / np.sqrt(n), rng.uniform(0.0, 0.7, 60), [0.5 / n, 1.0]])
-    got = diagnostics._ks_pvalues(d, np.full(d.size, n))
+    got = _diagnostics._ks_pvalues(d, np.full(d.size, n))
     ref = stats.kstwo.sf(d, n)                                     # reference: scipy.stats.kstwo
     series = n * d * d < 2.2
     # tolerance: the same series on Python floats instead of numpy scalars: rounding only
@@ -630,14 +633,14 @@ def test_ks_pvalues_match_scipy_kstwo(n):
     # beyond, twice the one-sided tail: the stated 1e-11 of the sum (and underflow near 0)
     np.testing.assert_allclose(got[~series], ref[~series], rtol=1e-11, atol=1e-300)
     assert np.count_nonzero(~series & (ref > 1e-12)) >= 5           # the one-sided range is exercised
-    big = diagnostics._ks_pvalues(d[:50], np.full(50, 20000))
+    big = _diagnostics._ks_pvalues(d[:50], np.full(50, 20000))
     np.testing.assert_allclose(big, stats.kstwobign.sf(d[:50] * np.sqrt(20000)), rtol=1e-14)  # asymptotic law
 
 
 def test_ks_family_pvalues_are_the_bonferroni_minimum():
     d, n = [0.01, 0.03, 0.02, 0.001, 0.05], [2000, 2004, 150, 3000, 30]
     p = stats.kstwo.sf(d, n)                                       # reference: scipy.stats.kstwo
-    got = diagnostics._ks_family_pvalues(d, n, [12, 3], [0, 0, 1, 1, 0])
+    got = _diagnostics._ks_family_pvalues(d, n, [12, 3], [0, 0, 1, 1, 0])
     assert got[0] == pytest.approx(min(1.0, 12 * min(p[0], p[1], p[4])), rel=1e-13)
     assert got[1] == pytest.approx(min(1.0, 3 * min(p[2], p[3])), rel=1e-13)
 
@@ -650,10 +653,10 @@ def test_real_form_products_match_complex_matmul(n, L, c):
     w = rng.standard_normal((c, n)) + 1j * rng.standard_normal((c, n))
     # reference: numpy's complex matmul; tolerance: rounding of L (resp. n) complex multiply-adds,
     # relative to the sum of the magnitudes of the terms
-    got = diagnostics._rows_times(m, v)
+    got = _diagnostics._rows_times(m, v)
     assert got.shape == (n, c)
     np.testing.assert_array_less(np.abs(got - m @ v), 8 * L * 1.2e-16 * (np.abs(m) @ np.abs(v)) + 1e-300)
-    got = diagnostics._times_rows(w, m)
+    got = _diagnostics._times_rows(w, m)
     assert got.shape == (c, L)
     np.testing.assert_array_less(np.abs(got - w @ m), 8 * n * 1.2e-16 * (np.abs(w) @ np.abs(m)) + 1e-300)
 
@@ -703,20 +706,20 @@ def test_one_sided_ks_tail_matches_scipy_smirnov(n):
 
     for x in np.sqrt(np.linspace(2.2, 60.0, 40) / n):
         ref = special.smirnov(n, x)                                # reference: scipy.special.smirnov
-        assert diagnostics._smirnov_sf(n, x) == pytest.approx(ref, rel=1e-11, abs=1e-300)   # stated bound
+        assert _diagnostics._smirnov_sf(n, x) == pytest.approx(ref, rel=1e-11, abs=1e-300)   # stated bound
 
 
 def test_ks_statistics_of_several_samples_match_scipy_kstest():
     rng = np.random.default_rng(19)
     samples = [rng.uniform(size=k) for k in (2000, 1996, 37, 500)]
     samples[3] = samples[3] ** 1.2                                  # one sample off the uniform law
-    got = diagnostics._ks_statistics(samples)
+    got = _diagnostics._ks_statistics(samples)
     for u, d in zip(samples, got):
         ref = stats.kstest(u, "uniform").statistic                 # reference: scipy.stats.kstest
         assert d == pytest.approx(ref, rel=1e-14, abs=1e-15)        # the same sorted differences
-        assert d == diagnostics._ks_statistic(u)
+        assert d == _diagnostics._ks_statistic(u)
     with_nan = [samples[0], np.r_[samples[2], np.nan]]
-    assert np.isnan(diagnostics._ks_statistics(with_nan)[1])        # as the one-sample form gives it
+    assert np.isnan(_diagnostics._ks_statistics(with_nan)[1])        # as the one-sample form gives it
 
 
 def test_envelope_cdfs_of_several_samples_equal_one_by_one():
@@ -726,7 +729,7 @@ def test_envelope_cdfs_of_several_samples_equal_one_by_one():
           np.abs(5.0 + 0.7 * (rng.standard_normal(300) + 1j * rng.standard_normal(300))),
           np.full(20, 2.5), np.zeros(0)]
     nus, sigmas = [3.0, 0.0, 5.0, 1.0, 1.0], [1.1, 0.4, 0.7, 0.5, 1.0]
-    got = diagnostics._envelope_cdfs(rs, nus, sigmas)
+    got = _diagnostics._envelope_cdfs(rs, nus, sigmas)
     for r, nu, s, g in zip(rs, nus, sigmas, got):
         np.testing.assert_array_equal(g, diagnostics.envelope_cdf(r, nu, s))     # the same values
     law = stats.rice(3.0 / 1.1, scale=1.1)                                      # reference: scipy.stats.rice

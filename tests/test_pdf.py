@@ -111,7 +111,7 @@ def _layout_problems(pages):
 @pytest.fixture(scope="module")
 def analysed(tmp_path_factory):
     """One real analysis of a two-burst capture, its report judged against a spec, and its figures."""
-    from analyzer import writers
+    from analyzer import capture
     from analyzer.pipeline import analyze
     from analyzer.report import figures, json_report
     from analyzer.spec import judge, parse_spec
@@ -119,7 +119,7 @@ def analysed(tmp_path_factory):
 
     d = tmp_path_factory.mktemp("layout")
     res = synthesize(SynthParams(ebn0_db=9.0, n_bursts=2, symbols_per_burst=600, seed=3))
-    cap = writers.write_sigmf(d / "cap", res.samples, 80e3, centre_hz=433.92e6, truth=res.truth)
+    cap = capture.write_sigmf(d / "cap", res.samples, 80e3, centre_hz=433.92e6, truth=res.truth)
     result = analyze(cap, tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, workers=1)
     spec = parse_spec(SPEC + "max_tone_imbalance_db = 0.0001\nmax_implementation_loss_db = 0.5\n"
                       "tone_error_hz = 0.001\nsymbol_rate_error_ppm = 0.01\nmax_tone_correlation = 0.0\n")
@@ -163,13 +163,13 @@ def test_pdf_pages_have_no_overlapping_text(analysed, n_bursts, judged):
 
 _FORKED_FIGURES = r"""
 import sys
-from analyzer import writers
+from analyzer import capture
 from analyzer.pipeline import analyze
 from analyzer.report import figures
 from analyzer.synth import SynthParams, synthesize
 
 res = synthesize(SynthParams(ebn0_db=9.0, n_bursts=2, symbols_per_burst=400, seed=5))
-cap = writers.write_sigmf(sys.argv[1] + "/cap", res.samples, 80e3, truth=res.truth)
+cap = capture.write_sigmf(sys.argv[1] + "/cap", res.samples, 80e3, truth=res.truth)
 result = analyze(cap, tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, workers=1)
 serial = figures.render_all(result, workers=1)
 figures._idle_cores = lambda: 2

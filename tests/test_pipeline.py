@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from analyzer import pipeline, writers
+from analyzer import pipeline, capture
 from analyzer.capture import ArrayCapture, open_capture
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
@@ -32,7 +32,7 @@ FS, RS = 80000.0, 5000.0
 
 def _analyse(tmp_path, params: SynthParams, name="cap", datatype="cf32_le", **kw):
     res = synthesize(params)
-    meta = writers.write_sigmf(tmp_path / name, res.samples, params.sample_rate_hz, datatype=datatype,
+    meta = capture.write_sigmf(tmp_path / name, res.samples, params.sample_rate_hz, datatype=datatype,
                                truth=res.truth)
     out = pipeline.analyze(meta, tones_hz=params.tones_hz, symbol_rate_hz=params.symbol_rate_hz, **kw)
     return res, out
@@ -126,7 +126,7 @@ def test_report_validates_against_schema(tmp_path):
 def test_stereo_iq_audio_files(tmp_path, kind):
     params = SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=2000, seed=9)
     res = synthesize(params)
-    path = writers.write_audio(tmp_path / f"cap.{kind}", res.samples, int(FS), truth=res.truth)
+    path = capture.write_audio(tmp_path / f"cap.{kind}", res.samples, int(FS), truth=res.truth)
     assert open_capture(path).kind == "iq"
     out = pipeline.analyze(path, tones_hz=params.tones_hz, symbol_rate_hz=RS)
     # Reference: the generator's Eb/N0; 16-bit audio quantisation is far below N0 here (0.3 dB).

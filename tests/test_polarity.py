@@ -25,7 +25,7 @@ from scipy.signal import max_len_seq
 
 from analyzer import pipeline
 from analyzer.capture import ArrayCapture
-from analyzer.prbs import PATTERNS, prbs_sequence
+from analyzer.errorcount import PATTERNS, prbs_sequence
 from analyzer.synth import SynthParams, synthesize
 
 

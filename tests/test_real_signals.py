@@ -29,7 +29,7 @@ import pytest
 from scipy import signal, stats
 
 import analyzer
-from analyzer import branches, pipeline, signal_energy, writers
+from analyzer import branches, pipeline, estimate, capture
 from analyzer.capture import ArrayCapture
 from analyzer.synth import SynthParams, synthesize
 
@@ -107,8 +107,8 @@ def test_signal_energy_on_known_symbols(kw):
     res = synthesize(p)
     g = branches.symbol_grid(800.0, FS / RS, p.symbols_per_burst)
     rows = branches.symbol_rows(res.samples, 0, g)
-    sums = signal_energy.energy_sums(rows, res.bits, res.truth["tones_hz"], FS, False, 1.0)
-    est = signal_energy.physical_ebn0(sums)
+    sums = estimate.energy_sums(rows, res.bits, res.truth["tones_hz"], FS, False, 1.0)
+    est = estimate.physical_ebn0(sums)
     es_true = np.mean(np.sum(np.abs(branches.symbol_rows(res.signal, 0, g)) ** 2, axis=1))
     # signal energy within 4%: the band basis (tones +-2 bins) holds all of a rectangular symbol's
     # energy but 97% of a Gaussian BT 0.3 one's (cutting the pulse to one window spreads the rest)
@@ -126,9 +126,9 @@ def test_signal_energy_pools_exactly():
                         start_offset_samples=400.0, seed=seed)
         res = synthesize(p)
         g = branches.symbol_grid(400.0, FS / RS, 600)
-        parts.append(signal_energy.energy_sums(branches.symbol_rows(res.samples, 0, g), res.bits, TONES, FS,
+        parts.append(estimate.energy_sums(branches.symbol_rows(res.samples, 0, g), res.bits, TONES, FS,
                                                False, 1.0))
-    pooled = signal_energy.pool_energy(parts)
+    pooled = estimate.pool_energy(parts)
     np.testing.assert_allclose(pooled.s, parts[0].s + parts[1].s, rtol=1e-12)
     assert pooled.n == 2 * parts[0].n
 
@@ -158,7 +158,7 @@ def _start_stop(tmp_path: Path) -> Path:
     phase = 2 * np.pi * np.cumsum(np.where(tone == 1, 1445.0, 1275.0)) / fs
     x = np.concatenate([np.zeros(2000), 0.3 * np.cos(phase), np.zeros(2000)])
     x += 0.003 * np.random.default_rng(2).standard_normal(x.size)
-    return writers.write_audio(tmp_path / "tty.wav", x, fs)
+    return capture.write_audio(tmp_path / "tty.wav", x, fs)
 
 
 def test_start_stop_timing_is_reported(tmp_path):

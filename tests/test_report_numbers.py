@@ -70,7 +70,7 @@ def test_a_pattern_not_counted_says_why(run_cli, make_capture, tmp_path, pattern
 def test_sync_bits_needed_is_where_the_count_starts_to_sync(name):
     # the count's own acceptance rule (2W bits judged after the order-bit seed), checked on
     # error-free O.150 bits (ITU-T O.150 patterns) one bit either side of the stated length
-    from analyzer.prbs import Reference, count_errors, prbs_sequence, sync_bits_needed
+    from analyzer.errorcount import Reference, count_errors, prbs_sequence, sync_bits_needed
     ref = Reference.prbs(name)
     need = sync_bits_needed(ref)
     seq = prbs_sequence(name, need + 40)
@@ -129,7 +129,7 @@ def test_html_and_pdf_show_the_json_numbers_and_verdict(run_cli, make_capture, t
 def test_bits_file_and_likelihood_decisions_through_the_command_line(run_cli, make_capture, tmp_path):
     from scipy import stats
 
-    from analyzer.prbs import prbs_sequence
+    from analyzer.errorcount import prbs_sequence
 
     # the bits file holds one period of PN9 (ITU-T O.150) as text; the capture sends PN9 with
     # unequal tones, where the likelihood rule (optimal for unequal energies) is used

@@ -12,7 +12,7 @@ import math
 
 import pytest
 
-from analyzer.sweep import SweepPoint, fit_loss
+from analyzer.batch import SweepPoint, fit_loss
 
 
 def _ideal_required_db(p):

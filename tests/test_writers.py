@@ -13,7 +13,7 @@ import sigmf
 import soundfile as sf
 from sigmf import sigmffile, validate
 
-from analyzer import writers
+from analyzer import capture
 from analyzer.errors import CaptureWarning, InputError
 from analyzer.synth import SynthParams, synthesize
 
@@ -29,7 +29,7 @@ def _no_temp_files(folder) -> int:
 
 def test_sigmf_output_passes_sigmf_validator(tmp_path):
     res = _synth()
-    meta = writers.write_sigmf(tmp_path / "v", res.samples, 80e3, centre_hz=868.3e6, truth=res.truth,
+    meta = capture.write_sigmf(tmp_path / "v", res.samples, 80e3, centre_hz=868.3e6, truth=res.truth,
                                description="unit test")
     doc = json.loads(meta.read_text())
     with warnings.catch_warnings():
@@ -55,7 +55,7 @@ def test_sigmf_output_passes_sigmf_validator(tmp_path):
 def test_ci16_scaling_and_clipping(tmp_path):
     x = np.array([0.5 + 0.25j, -0.5j, 1.5 - 2.0j, 1 / 32768 + 0j])
     with pytest.warns(CaptureWarning, match="2 of 8"):
-        writers.write_sigmf(tmp_path / "q", x, 1e3, datatype="ci16_le")
+        capture.write_sigmf(tmp_path / "q", x, 1e3, datatype="ci16_le")
     stored = np.fromfile(tmp_path / "q.sigmf-data", dtype="<i2")      # reference: numpy.fromfile
     # round(32768 x) clipped to +-32767, I then Q (SigMF ci16_le interleaving)
     assert stored.tolist() == [16384, 8192, 0, -16384, 32767, -32767, 1, 0]
@@ -63,11 +63,11 @@ def test_ci16_scaling_and_clipping(tmp_path):
 
 def test_real_sigmf_datatype_is_rf32(tmp_path):
     x = np.cos(np.arange(100) * 0.3) * 0.5
-    meta = writers.write_sigmf(tmp_path / "r", x, 8e3, datatype="rf32_le")
+    meta = capture.write_sigmf(tmp_path / "r", x, 8e3, datatype="rf32_le")
     rec = sigmffile.fromfile(str(meta))                                 # reference: sigmf reader
     assert np.max(np.abs(rec.read_samples() - x)) <= np.finfo(np.float32).eps
     with pytest.raises(InputError, match="complex samples"):
-        writers.write_sigmf(tmp_path / "r2", x + 0j, 8e3, datatype="rf32_le")
+        capture.write_sigmf(tmp_path / "r2", x + 0j, 8e3, datatype="rf32_le")
 
 
 @pytest.mark.parametrize("fmt,np_dt,full,bias", [("cf32", "<f4", 1.0, 0.0), ("ci16", "<i2", 32768.0, 0.0),
@@ -75,7 +75,7 @@ def test_real_sigmf_datatype_is_rf32(tmp_path):
 def test_raw_encoding_against_numpy_fromfile(tmp_path, fmt, np_dt, full, bias):
     rng = np.random.default_rng(11)
     x = 0.9 * (rng.uniform(-1, 1, 500) + 1j * rng.uniform(-1, 1, 500)) / np.sqrt(2)
-    p = writers.write_raw(tmp_path / f"a.{fmt}", x, fmt)
+    p = capture.write_raw(tmp_path / f"a.{fmt}", x, fmt)
     stored = np.fromfile(p, dtype=np_dt).astype(np.float64)             # reference: numpy.fromfile
     got = (stored[0::2] + 1j * stored[1::2] - bias * (1 + 1j)) / full
     # within half a quantisation step per component (float32 rounding for cf32)
@@ -87,7 +87,7 @@ def test_raw_encoding_against_numpy_fromfile(tmp_path, fmt, np_dt, full, bias):
 
 def test_cu8_clipping_warns(tmp_path):
     with pytest.warns(CaptureWarning, match="clipped"):
-        p = writers.write_raw(tmp_path / "c.cu8", np.array([2.0 - 2.0j, 0j]), "cu8")
+        p = capture.write_raw(tmp_path / "c.cu8", np.array([2.0 - 2.0j, 0j]), "cu8")
     # reference: numpy.fromfile; 0..255 limits of unsigned bytes, mid-point 127.5 rounds to even 128
     assert np.fromfile(p, dtype="u1").tolist() == [255, 0, 128, 128]
 
@@ -98,10 +98,10 @@ def test_existing_output_needs_overwrite(tmp_path, writer):
 
     def write(overwrite, scale=1.0):
         if writer == "sigmf":
-            return writers.write_sigmf(tmp_path / "o", x * scale, 1e3, overwrite=overwrite)
+            return capture.write_sigmf(tmp_path / "o", x * scale, 1e3, overwrite=overwrite)
         if writer == "audio":
-            return writers.write_audio(tmp_path / "o.wav", x * scale, 8000, overwrite=overwrite)
-        return writers.write_raw(tmp_path / "o.cf32", x * scale, overwrite=overwrite)
+            return capture.write_audio(tmp_path / "o.wav", x * scale, 8000, overwrite=overwrite)
+        return capture.write_raw(tmp_path / "o.cf32", x * scale, overwrite=overwrite)
 
     first = write(False)
     data = {"sigmf": tmp_path / "o.sigmf-data", "audio": first, "raw": first}[writer]
@@ -124,22 +124,22 @@ def test_existing_output_needs_overwrite(tmp_path, writer):
 def test_audio_writer_rules(tmp_path):
     x = np.exp(1j * np.arange(256) * 0.2) * 0.5
     with pytest.raises(InputError, match="PCM_16, PCM_24"):
-        writers.write_audio(tmp_path / "a.flac", x, 8000, subtype="FLOAT")
+        capture.write_audio(tmp_path / "a.flac", x, 8000, subtype="FLOAT")
     with pytest.raises(InputError, match=r"\.wav or \.flac"):
-        writers.write_audio(tmp_path / "a.ogg", x, 8000)
-    p = writers.write_audio(tmp_path / "a.flac", x, 8000, truth={"k": np.float64(1.5), "bad": float("inf")})
+        capture.write_audio(tmp_path / "a.ogg", x, 8000)
+    p = capture.write_audio(tmp_path / "a.flac", x, 8000, truth={"k": np.float64(1.5), "bad": float("inf")})
     info = sf.info(str(p))                                               # reference: soundfile
     assert (info.channels, info.samplerate, info.subtype, info.format) == (2, 8000, "PCM_24", "FLAC")
     side = tmp_path / "a.flac.truth.json"
     # JSON has no infinity: non-finite values are stored as null (RFC 8259)
     assert json.loads(side.read_text()) == {"k": 1.5, "bad": None}
-    writers.write_audio(tmp_path / "a.flac", x.real, 8000, overwrite=True)
+    capture.write_audio(tmp_path / "a.flac", x.real, 8000, overwrite=True)
     assert sf.info(str(p)).channels == 1
     assert not side.exists()                 # stale truth of the old file removed
 
 
 def test_pcm_clipping_warns(tmp_path):
     with pytest.warns(CaptureWarning, match="clipped"):
-        p = writers.write_audio(tmp_path / "c.wav", np.array([1.5, -0.5, -3.0]), 8000, subtype="PCM_16")
+        p = capture.write_audio(tmp_path / "c.wav", np.array([1.5, -0.5, -3.0]), 8000, subtype="PCM_16")
     got, _ = sf.read(p)                                                  # reference: soundfile
     assert np.max(np.abs(got - np.array([32767, -16384, -32768]) / 32768)) <= 1 / 32768

@@ -26,7 +26,7 @@ import math
 import warnings
 
 from ..errors import InputError
-from ..writers import NAMESPACE
+from ..capture import NAMESPACE
 
 FIELDS = ("tonepair:ebn0_db", "tonepair:ebn0_db_ci95", "tonepair:ber", "tonepair:errors", "tonepair:bits",
           "tonepair:tones_hz", "tonepair:symbol_rate_hz", "tonepair:implementation_loss_db")

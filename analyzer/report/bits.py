@@ -29,7 +29,7 @@ def decisions_text(result) -> str:
 def valid_frames_text(result) -> str:
     """The content (without flags and FCS) of every frame with a valid FCS, one frame a line, in hex
     (HDLC frames found in the decisions whatever the reference)."""
-    from ..frames import find_frames
+    from ..errorcount import find_frames
 
     lines = []
     for b in result.bursts:

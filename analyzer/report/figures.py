@@ -117,7 +117,7 @@ def _idle_cores() -> int:
     """Cores not already busy (by the one-minute load average): forking onto busy cores only adds CPU."""
     import os
 
-    from ..workers import default_workers
+    from ..parallel import default_workers
 
     try:
         load = os.getloadavg()[0]
@@ -134,7 +134,7 @@ def render_all(result, workers: int | None = 1) -> dict[str, Picture]:
     core and one per three figures (pictures are the same either way: each is
     drawn by the same code from the same result).
     """
-    from ..workers import fork_map, fork_workers
+    from ..parallel import fork_map, fork_workers
 
     items = report_figures(result)
     n = min(fork_workers(workers), len(items) // 3, _idle_cores())

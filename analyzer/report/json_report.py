@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import __version__
-from .. import intervals
+from .. import estimate
 from ..branches import template_correlation
 
 SCHEMA_PATH = Path(__file__).with_name("report.schema.json")
@@ -164,7 +164,7 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "output_correlation": _out_corr(getattr(b, "output_correlation", None)),
     }
     nominal_centre = 0.0 if b.nominal_tones_hz is None else 0.5 * sum(b.nominal_tones_hz)
-    iv = intervals.burst_intervals(b.tones_hz, b.stats.gain_sq, b.stats.noise_var_complex, b.stats.n_symbols,
+    iv = estimate.burst_intervals(b.tones_hz, b.stats.gain_sq, b.stats.noise_var_complex, b.stats.n_symbols,
                                    b.grid.window, sample_rate_hz, nominal_centre)
     d["tones_hz_ci95"] = [_pair(iv.tones_hz[0]), _pair(iv.tones_hz[1])]
     d["centre_offset_hz_ci95"] = _pair(iv.centre_offset_hz)

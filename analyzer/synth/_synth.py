@@ -123,7 +123,7 @@ import numpy as np
 from scipy import signal as sps_signal
 from scipy import special
 
-from . import frames, prbs
+from .. import errorcount
 
 __all__ = ["SynthParams", "SynthResult", "synthesize", "frequency_pulse", "phase_pulse", "PULSES",
            "channel_filter_taps", "deemphasis_ba", "receiver_audio_sos", "tilt_gain_db", "template_noise_gain"]
@@ -284,7 +284,7 @@ class SynthParams:
             raise ValueError("tone amplitudes must be non-negative and not both zero")
         if not 0.0 <= self.symbol_ramp <= 0.5:
             raise ValueError("symbol_ramp must be between 0 and 0.5 symbols")
-        if self.pattern not in prbs.PATTERNS:
+        if self.pattern not in errorcount.PATTERNS:
             raise ValueError(f"unknown pattern {self.pattern!r}")
         if self.framing not in ("none", "hdlc"):
             raise ValueError(f"unknown framing {self.framing!r} (none or hdlc)")
@@ -292,7 +292,7 @@ class SynthParams:
             if self.frame_bytes < 2 or self.preamble_flags < 1 or self.flags_between < 1:
                 raise ValueError("hdlc framing needs frames of at least 2 bytes and at least one flag before "
                                  "and after each")
-            need = 8 * (self.preamble_flags + self.flags_between) + frames.frame_bits(bytes(self.frame_bytes)).size + 1
+            need = 8 * (self.preamble_flags + self.flags_between) + errorcount.frame_bits(bytes(self.frame_bytes)).size + 1
             if self.symbols_per_burst < need:
                 raise ValueError(f"a burst of {self.symbols_per_burst} symbols cannot hold one frame of "
                                  f"{self.frame_bytes} bytes with its flags (about {need} symbols or more)")
@@ -636,19 +636,19 @@ def _framed_tones(p: SynthParams, rng: np.random.Generator) -> tuple[np.ndarray,
     n_sym = p.symbols_per_burst
     out, listed = [], []
     for _ in range(p.n_bursts):
-        parts = [np.tile(frames.FLAG_BITS, p.preamble_flags)]
+        parts = [np.tile(errorcount.FLAG_BITS, p.preamble_flags)]
         used, sent = parts[0].size, []
-        closing = np.tile(frames.FLAG_BITS, p.flags_between)
+        closing = np.tile(errorcount.FLAG_BITS, p.flags_between)
         while True:
             payload = rng.integers(0, 256, p.frame_bytes, dtype=np.uint8).tobytes()
-            body = frames.frame_bits(payload)
+            body = errorcount.frame_bits(payload)
             if used + body.size + closing.size > n_sym - 1:
                 break
             sent.append({"start_symbol": used + 1, "hex": payload.hex()})
             parts += [body, closing]
             used += body.size + closing.size
-        fill = np.tile(frames.FLAG_BITS, (n_sym - 1 - used) // 8 + 1)[:n_sym - 1 - used]
-        out.append(frames.nrzi_encode(np.concatenate(parts + [fill]), int(rng.integers(0, 2))))
+        fill = np.tile(errorcount.FLAG_BITS, (n_sym - 1 - used) // 8 + 1)[:n_sym - 1 - used]
+        out.append(errorcount.nrzi_encode(np.concatenate(parts + [fill]), int(rng.integers(0, 2))))
         listed.append(sent)
     return np.concatenate(out), listed
 
@@ -680,7 +680,7 @@ def synthesize(p: SynthParams) -> SynthResult:
     if p.framing == "hdlc":
         all_bits, framed = _framed_tones(p, rng)
     else:
-        all_bits = prbs.prbs_sequence(p.pattern, n_sym * p.n_bursts) ^ np.uint8(p.pattern_inverted)
+        all_bits = errorcount.prbs_sequence(p.pattern, n_sym * p.n_bursts) ^ np.uint8(p.pattern_inverted)
     tone_index = all_bits ^ np.uint8(p.one_on_low_tone)
 
     unit, gain = _bursts(p, rng, total, starts, sps_tx, tone_index)

@@ -29,7 +29,7 @@ import tomllib
 from dataclasses import dataclass, fields
 from pathlib import Path
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = ["Link", "Limits", "Spec", "parse_spec", "load_spec", "judge", "LIMIT_UNITS"]
 
@@ -89,7 +89,7 @@ def _number(value, key: str, path) -> float:
 
 
 def _parse_link(table, path) -> Link:
-    from .prbs import PATTERNS
+    from ..errorcount import PATTERNS
 
     if not isinstance(table, dict):
         raise InputError("[link] must be a table", path, _HINT)
@@ -284,7 +284,7 @@ def judge(report, spec: Spec) -> tuple[list[dict], str]:
     judged by its 95% upper bound (reported as the measured value).
     """
     if not isinstance(report, dict):
-        from .report.json_report import build_report
+        from ..report.json_report import build_report
 
         report = build_report(report)
     lim = spec.limits

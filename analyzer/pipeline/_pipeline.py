@@ -13,11 +13,11 @@ from typing import Callable
 
 import numpy as np
 
-from . import acquire, blind, branches, decide, diagnostics, estimate, frames, prbs, signal_energy, survey, theory
-from .capture import Capture, open_capture, verify_sha512
-from .errors import CaptureWarning, InputError, warn
-from .heap import keep_freed_memory
-from .workers import fork_map, fork_workers
+from .. import acquire, branches, diagnostics, estimate, errorcount, survey, theory
+from ..capture import Capture, open_capture, verify_sha512
+from ..errors import CaptureWarning, InputError, warn
+from ..parallel import keep_freed_memory
+from ..parallel import fork_map, fork_workers
 
 __all__ = ["AnalysisOptions", "BurstResult", "Summary", "AnalysisResult", "analyze", "analyze_capture"]
 
@@ -107,9 +107,9 @@ class BurstResult:
     leakage: diagnostics.Leakage | None = None
     noise_correlation: diagnostics.NoiseCorrelation | None = None
     output_correlation: np.ndarray | None = None      # (2, 4, 4), see diagnostics.output_correlations
-    energy: signal_energy.EnergySums | None = None    # sums behind the physical Eb/N0 (pooled in the summary)
-    frames: frames.FrameCount | None = None           # HDLC frames, when they are the reference
-    frame_theory: frames.FrameTheory | None = None
+    energy: estimate.EnergySums | None = None    # sums behind the physical Eb/N0 (pooled in the summary)
+    frames: errorcount.FrameCount | None = None           # HDLC frames, when they are the reference
+    frame_theory: errorcount.FrameTheory | None = None
     ber_reason: str | None = None                     # why no bit errors were counted (None when they were)
 
     @property
@@ -138,8 +138,8 @@ class Summary:
     ber: BerCount | None
     ber_theory: float
     loss: theory.LossEstimate | None
-    frames: frames.FrameCount | None = None
-    frame_theory: frames.FrameTheory | None = None
+    frames: errorcount.FrameCount | None = None
+    frame_theory: errorcount.FrameTheory | None = None
     ber_reason: str | None = None      # why no bit errors were counted in any burst
 
 
@@ -265,20 +265,20 @@ def _resolve_reference(opts: AnalysisOptions, bits: np.ndarray, bits_file_text: 
     if ref in ("none", "frames"):
         return None
     if ref == "auto":
-        det = prbs.detect_pattern(bits)
+        det = errorcount.detect_pattern(bits)
         if det is None:
             return None
-        return prbs.Reference.prbs(det.name, inverted=det.inverted)
+        return errorcount.Reference.prbs(det.name, inverted=det.inverted)
     if ref.startswith("bits:"):
-        pattern = prbs.parse_bits_text(bits_file_text or "", ref[5:])
-        return prbs.Reference.pattern(pattern, ref)
+        pattern = errorcount.parse_bits_text(bits_file_text or "", ref[5:])
+        return errorcount.Reference.pattern(pattern, ref)
     # a named pattern: find the polarity (tone mapping) from the data
-    det = prbs.detect_pattern(bits, candidates=[ref])
+    det = errorcount.detect_pattern(bits, candidates=[ref])
     inverted = bool(det.inverted) if det is not None else False
-    return prbs.Reference.prbs(ref, inverted=inverted)
+    return errorcount.Reference.prbs(ref, inverted=inverted)
 
 
-def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[prbs.ErrorCount | None, bool]:
+def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[errorcount.ErrorCount | None, bool]:
     """Count errors; return the count and whether a ONE rides on the low tone.
 
     For a PRBS the polarity found by detection already fixes the mapping: bits
@@ -290,15 +290,15 @@ def _count(bits: np.ndarray, ref, hint: int | None = None) -> tuple[prbs.ErrorCo
     both mappings are tried and the better kept.
     ``expected`` in the returned count is always in tone-index space.
     ``hint`` is a PRBS alignment from an earlier count of nearly these bits
-    (see :func:`prbs.count_errors`).
+    (see :func:`errorcount.count_errors`).
     """
     if ref is None:
         return None, False
     if ref.is_prbs:
-        ec = prbs.count_errors(bits, ref, alignment_hint=hint)
+        ec = errorcount.count_errors(bits, ref, alignment_hint=hint)
         return replace(ec, reference=ref.name), bool(ref.inverted)
-    direct = prbs.count_errors(bits, ref)
-    swapped = prbs.count_errors(bits ^ np.uint8(1), ref)
+    direct = errorcount.count_errors(bits, ref)
+    swapped = errorcount.count_errors(bits ^ np.uint8(1), ref)
     if swapped.synced and (not direct.synced or swapped.errors < direct.errors):
         return replace(swapped, expected=swapped.expected ^ np.uint8(1)), True
     return direct, False
@@ -316,19 +316,19 @@ def _ber_reason(opts: AnalysisOptions, bits: np.ndarray, ref, ber) -> str | None
     if ref is None and asked == "auto":
         return "no O.150 pattern found in the decisions"
     if ref is None:
-        ref = prbs.Reference.prbs(asked)
+        ref = errorcount.Reference.prbs(asked)
     name = ref.name if asked == "auto" else asked
-    need = prbs.sync_bits_needed(ref)
+    need = errorcount.sync_bits_needed(ref)
     if bits.size < need:
         return f"{name}: the burst is too short to sync ({bits.size} bits; {name} needs at least {need})"
     if ref.is_prbs:
-        other = prbs.detect_pattern(bits)
+        other = errorcount.detect_pattern(bits)
         if other is not None and other.name != ref.name:
             return f"{name} not found; the bits follow {other.name}"
     return f"{name} not found in the decisions"
 
 
-def _ber_count(ec: prbs.ErrorCount, low_is_one: bool) -> BerCount:
+def _ber_count(ec: errorcount.ErrorCount, low_is_one: bool) -> BerCount:
     lo, hi = theory.clopper_pearson(ec.errors, ec.bits)
     return BerCount(reference=ec.reference, bits=int(ec.bits), errors=int(ec.errors),
                     rate=float(ec.errors / ec.bits) if ec.bits else float("nan"),
@@ -433,7 +433,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         return bool(np.isfinite(c) and c > 0.5)
 
     if out is not None:
-        dec = decide.square_law(out.z)
+        dec = branches.square_law(out.z)
         continuous = keying(out.z, dec)
         grid = retime(grid, tones, dec)
         out = _correlate_again(x, x_start, grid, tones, fs, out)
@@ -444,12 +444,12 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         line_grid = grid
         grid = retime(grid, tones, None)
         out = branches.correlate(x, x_start, grid, tones, fs)
-        dec = decide.square_law(out.z)
+        dec = branches.square_law(out.z)
         continuous = keying(out.z, dec)
         if continuous:
             grid = retime(line_grid, tones, dec)
             out = _correlate_again(x, x_start, grid, tones, fs, out)
-    dec = decide.square_law(out.z)
+    dec = branches.square_law(out.z)
 
     counted: dict = {}
     aligned: dict = {}        # reference -> the alignment its last synced count began with
@@ -478,7 +478,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
             tones = acquire.refine_tones(branches.symbol_rows(x, x_start, grid), dec, fs, tones)
             grid = retime(grid, tones, dec)
             out = _correlate_again(x, x_start, grid, tones, fs, out)
-            dec = decide.square_law(out.z)
+            dec = branches.square_law(out.z)
             if max(abs(a - b) for a, b in zip(tones, before)) < SETTLED_TONE_SHIFT * fs / grid.samples_per_symbol:
                 break
         ref = _resolve_reference(opts, dec, bits_text)
@@ -498,7 +498,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     else:
         grid = retime(grid, tones, dec)
     out = branches.correlate(x, x_start, grid, tones, fs)
-    dec = decide.square_law(out.z)
+    dec = branches.square_law(out.z)
     rho = branches.template_correlation(tones, fs, grid.window)
     scale = grid.samples_per_symbol / grid.window
     if not synced:
@@ -512,7 +512,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
             out = branches.BranchOutputs(z=z_known, tones_hz=out.tones_hz, grid=grid)
         else:
             out = branches.correlate(x, x_start, grid, tones, fs)
-        dec = decide.square_law(out.z)
+        dec = branches.square_law(out.z)
         ec, low_one = count(dec, ref)
     prbs_synced = ec is not None and ec.synced and ec.bits > 0
     fc = _frame_count(opts, dec) if not prbs_synced else None
@@ -528,18 +528,18 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         sent, mask, data_aided, ber = dec, None, False, None
     mom = estimate.group_moments(out.z, sent, mask)
     rows = branches.symbol_rows(x, x_start, grid)
-    energy = signal_energy.energy_sums(rows, sent, tones, fs, real=not np.any(x.imag), scale=scale, mask=mask)
+    energy = estimate.energy_sums(rows, sent, tones, fs, real=not np.any(x.imag), scale=scale, mask=mask)
     stats = estimate.with_physical_ebn0(estimate.branch_stats(mom, abs(rho), scale, data_aided),
-                                        signal_energy.physical_ebn0(energy))
+                                        estimate.physical_ebn0(energy))
 
     if opts.decision == "likelihood" and np.all(stats.gain_sq > 0):
         s2 = float(np.mean(stats.noise_var_complex))
-        dec = decide.likelihood_ratio(out.z, tuple(stats.signal_gain), s2)
+        dec = branches.likelihood_ratio(out.z, tuple(stats.signal_gain), s2)
         ec, low_one = count(dec, ref)
         if ec is not None and ec.synced and ec.bits > 0:
             ber = _ber_count(ec, low_one)
         if fc is not None:
-            fc = frames.count_frames(dec)
+            fc = errorcount.count_frames(dec)
 
     model = theory.LinkModel(tone_correlation=float(min(abs(rho), 0.999)),
                              imbalance_db=float(stats.imbalance_db) if np.isfinite(stats.imbalance_db) else 0.0)
@@ -547,7 +547,7 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
     loss = None
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
-    fth = frames.frame_theory(stats.ebn0, model, fc, stats.ebn0_db, stats.ebn0_db_ci95) if fc is not None else None
+    fth = errorcount.frame_theory(stats.ebn0, model, fc, stats.ebn0_db, stats.ebn0_db_ci95) if fc is not None else None
     if stats.ebn0_db >= GRID_FIT_MIN_EBN0_DB:
         _check_grid_fit(x, x_start, fs, grid, tones, dec)
     _check_hints_fit(opts, grid, tones, fs, float(tm.line_snr))
@@ -565,13 +565,13 @@ def _analyse_burst(index: int, x: np.ndarray, x_start: int, fs: float, grid0: br
         energy=energy, frames=fc, frame_theory=fth, ber_reason=_ber_reason(opts, dec, ref, ber), **diag)
 
 
-def _frame_count(opts: AnalysisOptions, dec: np.ndarray) -> frames.FrameCount | None:
+def _frame_count(opts: AnalysisOptions, dec: np.ndarray) -> errorcount.FrameCount | None:
     """The HDLC frames in a burst's final decisions when they are the reference: always with
     ``--reference frames``, under ``auto`` (no pattern synced) when the burst looks framed."""
     if opts.reference not in ("frames", "auto"):
         return None
-    fc = frames.count_frames(dec)
-    if opts.reference == "auto" and not frames.looks_framed(fc):
+    fc = errorcount.count_frames(dec)
+    if opts.reference == "auto" and not errorcount.looks_framed(fc):
         return None
     return fc
 
@@ -621,9 +621,9 @@ def _check_hints_fit(opts: AnalysisOptions, grid, tones, fs: float, line_quality
             warn(f"{where}: the measured symbol rate {rate:.6g} Bd lies {ppm:+.0f} ppm from --baud "
                  f"{float(opts.symbol_rate_hz):g}, at the edge of the +-{HINT_RATE_SEARCH_PPM:g} ppm searched: the "
                  "rate may lie beyond it; run without --baud to measure it blind")
-        elif line_quality < blind.BLIND_MIN_LINE_QUALITY:
+        elif line_quality < acquire.BLIND_MIN_LINE_QUALITY:
             warn(f"{where}: at --baud {float(opts.symbol_rate_hz):g} the burst shows no clear symbol-rate line "
-                 f"(quality {line_quality:.1f}, below {blind.BLIND_MIN_LINE_QUALITY:g}): the hinted rate may be wrong; "
+                 f"(quality {line_quality:.1f}, below {acquire.BLIND_MIN_LINE_QUALITY:g}): the hinted rate may be wrong; "
                  "run without --baud to measure it blind")
 
 
@@ -641,7 +641,7 @@ def _check_blind_rate(x, x_start, fs: float, grid, tones, line_quality: float) -
     hi = min(int(np.ceil(grid.stop)) - x_start, len(x))
     if hi - lo < 32 * grid.window:
         return
-    got = blind.blind_rate(x[lo:hi], fs, tones)
+    got = acquire.blind_rate(x[lo:hi], fs, tones)
     if got is None:
         return
     blind_rs, quality = got
@@ -746,7 +746,7 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     z_edge = branches.correlate_at(x, x_start, np.concatenate((at_pre, at_post)), grid.window, tones, fs)
     z = np.concatenate((z_edge[:pre], out.z, z_edge[pre:]))
     used = (at_pre, grid.first_samples, at_post)
-    dec_ext = decide.square_law(z)
+    dec_ext = branches.square_law(z)
     bits = dec_ext
     if ec is not None and ec.synced and ec.bits > 0:
         if ref.is_prbs and ec.slips == 0:
@@ -774,12 +774,12 @@ def _refine_edges(x, x_start, grid, tones, fs, out, dec, ec, ref):
     g = np.sqrt(g2)
     r = np.abs(z[near, b_idx])
     llr = np.full(ext.n_symbols, np.nan)
-    llr_near = decide.log_i0(2 * g * r / s2) - g2 / s2
+    llr_near = branches.log_i0(2 * g * r / s2) - g2 / s2
     # correlated tones: the other branch carries the leakage |rho| g when the tone is there
     rho = abs(branches.template_correlation(tones, fs, grid.window))
     if rho > 0.05:
         r_o = np.abs(z[near, 1 - b_idx])
-        llr_near = llr_near + decide.log_i0(2 * rho * g * r_o / s2) - (rho * g) ** 2 / s2
+        llr_near = llr_near + branches.log_i0(2 * rho * g * r_o / s2) - (rho * g) ** 2 / s2
     llr[near] = llr_near
     first, stop = pre, pre + n                  # current edges in the extended grid
     tau = EDGE_LLR
@@ -805,8 +805,8 @@ def _summary(bursts: list[BurstResult]) -> Summary:
     rho = float(np.mean([abs(b.rho) for b in bursts]))
     scale = float(np.mean([b.grid.samples_per_symbol / b.grid.window for b in bursts]))
     stats = estimate.branch_stats(mom, rho, scale, all(b.stats.data_aided for b in bursts))
-    stats = estimate.with_physical_ebn0(stats, signal_energy.physical_ebn0(
-        signal_energy.pool_energy([b.energy for b in bursts])))
+    stats = estimate.with_physical_ebn0(stats, estimate.physical_ebn0(
+        estimate.pool_energy([b.energy for b in bursts])))
     counted = [b.ber for b in bursts if b.ber is not None]
     ber = None
     if counted:
@@ -827,10 +827,10 @@ def _summary(bursts: list[BurstResult]) -> Summary:
     if ber is not None and np.isfinite(stats.ebn0_db):
         loss = theory.implementation_loss_db(stats.ebn0_db, stats.ebn0_db_ci95, ber.errors, ber.bits)
     counts = [b.frames for b in bursts if b.frames is not None]
-    fr = frames.pool_counts(counts) if counts else None
+    fr = errorcount.pool_counts(counts) if counts else None
     fth = None
     if fr is not None and stats is not None:
-        fth = frames.pooled_theory(counts, [b.frame_theory for b in bursts if b.frames is not None],
+        fth = errorcount.pooled_theory(counts, [b.frame_theory for b in bursts if b.frames is not None],
                                    stats.ebn0_db, stats.ebn0_db_ci95)
     reason = None
     if ber is None:
@@ -871,13 +871,13 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
             pairs += acquire.peak_tone_pairs(x, fs, band)
     found, score = None, -1.0
     for tones in pairs:
-        got = blind.blind_rate(x, fs, tones) if opts.symbol_rate_hz is None else (float(opts.symbol_rate_hz),
+        got = acquire.blind_rate(x, fs, tones) if opts.symbol_rate_hz is None else (float(opts.symbol_rate_hz),
                                                                               float("inf"))
         if got is None:
             continue
         # among pairs with a symbol-rate line, the one that keys most clearly between its tones
-        clear_line = len(pairs) > 1 and got[1] >= blind.BLIND_MIN_LINE_QUALITY
-        sc = blind.keying_contrast(x, fs, tones, got[0]) if clear_line else 0.0
+        clear_line = len(pairs) > 1 and got[1] >= acquire.BLIND_MIN_LINE_QUALITY
+        sc = acquire.keying_contrast(x, fs, tones, got[0]) if clear_line else 0.0
         if found is None or sc > score:
             found, score = (tones, *got), sc
     if found is None:
@@ -885,9 +885,9 @@ def _starting_point(x: np.ndarray, fs: float, band, opts: AnalysisOptions, path,
              "give --baud to analyse it")
         return None
     tones, rs, quality = found
-    if quality < blind.BLIND_MIN_LINE_QUALITY:
+    if quality < acquire.BLIND_MIN_LINE_QUALITY:
         warn(f"{path}: the candidate burst near sample {start} ({len(x)} samples) shows no symbol-rate "
-             f"line (quality {quality:.1f}, below {blind.BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
+             f"line (quality {quality:.1f}, below {acquire.BLIND_MIN_LINE_QUALITY:g}): a noise peak or an "
              "unkeyed carrier, not analysed; give --tones and --baud to analyse it anyway")
         return None
     return (float(tones[0]), float(tones[1])), float(rs), float(quality)
@@ -1010,7 +1010,7 @@ def _checked_survey(cap: Capture, strict: bool, **kw) -> survey.Survey:
     expected = getattr(cap, "sha512_unchecked", None)
     if not expected:
         return survey.survey(**kw)
-    from .digest import CaptureDigest
+    from ..capture import CaptureDigest
 
     digest = CaptureDigest(cap.data_path, cap.sample_bytes)
     try:
@@ -1247,9 +1247,9 @@ def analyze(path: str | Path, tones_hz=None, symbol_rate_hz: float | None = None
         except OSError as exc:
             raise InputError(f"cannot read the bits file ({exc.strerror or exc})", bpath,
                              "give --reference bits:FILE with a text file of 0/1 characters") from None
-    elif reference not in ("auto", "none", "frames") and reference not in prbs.PATTERNS:
+    elif reference not in ("auto", "none", "frames") and reference not in errorcount.PATTERNS:
         raise InputError(f"unknown reference {reference!r}", None,
-                         "use auto, none, frames, " + ", ".join(prbs.PATTERNS) + " or bits:FILE")
+                         "use auto, none, frames, " + ", ".join(errorcount.PATTERNS) + " or bits:FILE")
     if decision not in ("square-law", "likelihood"):
         raise InputError(f"unknown decision rule {decision!r}", None, "use square-law or likelihood")
     opts = AnalysisOptions(tones_hz=None if tones_hz is None else (float(tones_hz[0]), float(tones_hz[1])),

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
-from . import theory
+from .. import theory
 
 __all__ = ["ModelCheck", "model_checks", "envelope_cdf", "ks_test", "normal_test", "f_test_oneway", "ebn0_trend", "blind_ber", "LossParts", "loss_parts",
            "output_correlations", "cross_branch_check", "ber_likelihood", "DecisionGain",

@@ -15,8 +15,8 @@ from typing import Callable, Iterable, Iterator
 
 import numpy as np
 
-from .errors import CaptureWarning, warn
-from .heap import release_freed_memory
+from ..errors import CaptureWarning, warn
+from ._heap import release_freed_memory
 
 __all__ = ["default_workers", "can_fork", "fork_workers", "fork_map", "shared_zeros"]
 

@@ -20,7 +20,7 @@ from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import CaptureWarning, InputError
+from ..errors import CaptureWarning, InputError
 
 __all__ = ["BatchOptions", "find_captures", "analyze_one", "run_batch", "summary_csv", "summary_html"]
 
@@ -72,7 +72,7 @@ def find_captures(items: list[str]) -> list[Path]:
 
 def _report_names(paths: list[Path]) -> list[str]:
     """Base names of each capture's reports, made unique within the batch."""
-    from .commands import _base_name
+    from ..cli._commands import _base_name
 
     names, used = [], set()
     for p in paths:
@@ -93,10 +93,10 @@ def analyze_one(path: str, name: str, opts: BatchOptions) -> dict:
     """
     import numpy as np
 
-    from .commands import _analysis_reports, _inputs, link_options, report_paths, write_all
-    from .pipeline import analyze
-    from .report import style
-    from .report.files import check_output
+    from ..cli._commands import _analysis_reports, _inputs, link_options, report_paths, write_all
+    from ..pipeline import analyze
+    from ..report import style
+    from ..report.files import check_output
 
     entry = {"path": str(path), "name": name, "verdict": None, "ebn0_db": None, "ber": None, "errors": None,
              "bits": None, "n_bursts": None, "failed_checks": [], "reports": {}, "warnings": [], "error": None}
@@ -161,7 +161,7 @@ def _run_cluster(paths: list[Path], names: list[str], opts: BatchOptions, addres
 
 def summary_report(entries: list[dict], opts: BatchOptions) -> dict:
     """The batch summary (JSON-ready)."""
-    from . import __version__
+    from .. import __version__
 
     counts = {k: sum(e["verdict"] == k for e in entries) for k in ("pass", "fail", "not-judged", "error")}
     return {"$schema": SCHEMA_ID, "tool": {"name": "tonepair", "version": __version__},
@@ -190,7 +190,7 @@ def summary_csv(summary: dict) -> str:
 
 def summary_html(summary: dict, html_path: Path) -> str:
     """An HTML table: pass/fail per capture, links to each capture's own reports."""
-    from .report.html import env as html_env, generated_at
+    from ..report.html import env as html_env, generated_at
 
     env = html_env()
     here = Path(html_path).resolve().parent
@@ -218,10 +218,10 @@ def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers
     asks; the CSV always, beside the JSON or in OUT); return the exit code and the summary."""
     import sys
 
-    from .commands import link_options, output_paths, write_all
-    from .report import style
-    from .report.files import check_output
-    from .report.json_report import dumps
+    from ..cli._commands import link_options, output_paths, write_all
+    from ..report import style
+    from ..report.files import check_output
+    from ..report.json_report import dumps
 
     link_options(Path(opts.spec_path) if opts.spec_path else None, opts.tones, opts.baud, opts.reference)
     paths = find_captures(items)
@@ -244,7 +244,7 @@ def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers
     if "html" in spaths:
         files.append((spaths["html"], summary_html(summary, spaths["html"])))
     if "pdf" in spaths:
-        from .report.pdf import render_batch_pdf
+        from ..report.pdf import render_batch_pdf
 
         files.append((spaths["pdf"], render_batch_pdf(summary)))
     written = write_all(files)
@@ -271,6 +271,6 @@ def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers
 
 
 def _expand_inputs(p: Path) -> list[Path]:
-    from .commands import _inputs
+    from ..cli._commands import _inputs
 
     return _inputs(p)

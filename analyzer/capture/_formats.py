@@ -56,7 +56,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError, warn
+from ..errors import InputError, warn
 
 __all__ = ["Capture", "open_capture", "read_all", "verify_sha512", "RAW_FORMATS", "HILBERT_MARGIN"]
 
@@ -607,7 +607,7 @@ def _open_sigmf(path: Path, meta_path: Path, data_path: Path, rate, fmt, strict:
     sha = g.get("core:sha512")
     unchecked = None
     if sha and verify:
-        from .digest import file_sha512
+        from ._digest import file_sha512
 
         verify_sha512(data_path, sha, file_sha512(data_path), strict)
     elif sha:

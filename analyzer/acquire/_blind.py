@@ -8,7 +8,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import acquire, branches
+from .. import branches
+from . import _acquire as acquire
 
 __all__ = ["BLIND_MIN_LINE_QUALITY", "HARMONIC_LINE_SHARE", "blind_rate", "keying_contrast", "sub_multiple"]
 

@@ -10,8 +10,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import theory
-from .errors import InputError
+from .. import theory
+from ..errors import InputError
 
 __all__ = ["SweepPoint", "LossFit", "fit_loss"]
 

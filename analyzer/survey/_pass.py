@@ -28,8 +28,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import acquire
-from .errors import InputError
+from .. import acquire
+from ..errors import InputError
 
 __all__ = ["QUANTUM", "TraceSpec", "Survey", "block_size", "blocks", "survey", "trace_pass",
            "spectrogram_stride", "DC_FALSE_ALARM", "dc_offset_test"]
@@ -297,7 +297,7 @@ class _Trace:
         n = max(int(n_samples), 0) // spec.frame
         dtypes = (np.float64, np.float64, np.complex128, np.float64)
         if shared:
-            from .workers import shared_zeros
+            from ..parallel import shared_zeros
 
             arrays = shared_zeros(n, dtypes)
         else:
@@ -411,7 +411,7 @@ def _parallel_stretches(read, n_samples: int, block: int, setup: tuple, trace: _
                         progress, stage, digest=None):
     """The pass over the whole capture, split in stretches among forked workers (while this process
     feeds ``digest`` the file in order, block by block)."""
-    from .workers import fork_map
+    from ..parallel import fork_map
 
     n_blocks = -(-n_samples // block)
     k = int(min(n_blocks, workers * _STRETCHES_PER_WORKER))

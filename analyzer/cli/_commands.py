@@ -9,10 +9,10 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from .errors import InputError
-from .pipeline import analyze
-from .report import json_report
-from .report.files import check_output, write_atomic
+from ..errors import InputError
+from ..pipeline import analyze
+from ..report import json_report
+from ..report.files import check_output, write_atomic
 
 
 def _progress_bar(quiet: bool):
@@ -20,7 +20,7 @@ def _progress_bar(quiet: bool):
     or not a terminal; the bar itself is the callback ``cb(done, total, stage)``."""
     if quiet or not sys.stdout.isatty():
         return None, None
-    from .report.terminal import Progress
+    from ..report.terminal import Progress
 
     prog = Progress()
     return prog, prog
@@ -93,7 +93,7 @@ def _inputs(capture: Path) -> list[Path]:
 
 def link_options(spec_path: Path | None, tones, baud, reference: str | None):
     """Options given on the command line win; the spec's [link] fills the rest."""
-    from .spec import load_spec
+    from ..spec import load_spec
 
     spec = load_spec(spec_path) if spec_path is not None else None
     if spec is not None:
@@ -132,7 +132,7 @@ def run_analyze(capture: Path, tones, baud, rate, fmt, reference: str | None, de
                 annotate: bool = False, strict: bool = False, workers: int | None = None,
                 formats: str | None = None, bits_path: Path | None = None, frames_path: Path | None = None) -> int:
     """Analyse, judge against the spec, write the reports, print the summary; return the exit code."""
-    from .report.terminal import print_summary
+    from ..report.terminal import print_summary
 
     spec, tones, baud, reference = link_options(spec_path, tones, baud, reference)
     capture = Path(capture)
@@ -180,7 +180,7 @@ def _analysis_reports(result, spec, paths: dict[str, Path], workers, cb) -> tupl
         check_output(p, opened, overwrite=True)
     report = json_report.build_report(result)
     if spec is not None:
-        from .spec import judge
+        from ..spec import judge
 
         checks, verdict = judge(report, spec)
         report = json_report.build_report(result, checks, verdict)
@@ -198,26 +198,26 @@ def _analysis_reports(result, spec, paths: dict[str, Path], workers, cb) -> tupl
         items.append((paths["json"], json_report.dumps(report)))
     pics = None
     if "html" in paths or "pdf" in paths:
-        from .report import figures
+        from ..report import figures
 
         stage("figures")
         pics = figures.render_all(result, workers)
     if "html" in paths:
-        from .report.html import render_html
+        from ..report.html import render_html
 
         stage("HTML report")
         items.append((paths["html"], render_html(result, report, pics)))
     if "pdf" in paths:
-        from .report.pdf import render_pdf
+        from ..report.pdf import render_pdf
 
         stage("PDF report")
         items.append((paths["pdf"], render_pdf(result, report, pics)))
     if "annotated" in paths:
-        from .report.annotate import annotated_metadata
+        from ..report.annotate import annotated_metadata
 
         items.append((paths["annotated"], annotated_metadata(result, report)))
     if "bits" in paths or "frames" in paths:
-        from .report.bits import decisions_text, valid_frames_text
+        from ..report.bits import decisions_text, valid_frames_text
 
         if "bits" in paths:
             items.append((paths["bits"], decisions_text(result)))
@@ -254,8 +254,8 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
               band=(300.0, 3000.0), deemphasis=750.0, tilt=0.0, pattern_inverted=False,
               one_on_low_tone=False) -> Path:
     """Synthesise a capture and write it with its truth."""
-    from .synth import SynthParams, synthesize
-    from . import writers
+    from ..synth import SynthParams, synthesize
+    from .. import capture
 
     try:
         params = SynthParams(tones_hz=tuple(tones), symbol_rate_hz=baud, sample_rate_hz=rate, ebn0_db=ebn0,
@@ -274,11 +274,11 @@ def run_synth(out: Path, tones, baud, rate, ebn0, offset, continuous_phase, star
     out = Path(out)
     suffix = out.suffix.lower()
     if suffix in (".wav", ".flac"):
-        return writers.write_audio(out, res.samples, int(round(rate)), truth=res.truth, overwrite=overwrite)
+        return capture.write_audio(out, res.samples, int(round(rate)), truth=res.truth, overwrite=overwrite)
     if audio:
         raise InputError("mono audio goes to a .wav or .flac file", out)
     base = Path(str(out).removesuffix(".sigmf-meta").removesuffix(".sigmf-data").removesuffix(".sigmf"))
-    return writers.write_sigmf(base, res.samples, rate, datatype=datatype, centre_hz=centre, truth=res.truth,
+    return capture.write_sigmf(base, res.samples, rate, datatype=datatype, centre_hz=centre, truth=res.truth,
                                description="tonepair synthetic FSK bursts", overwrite=overwrite)
 
 
@@ -293,8 +293,8 @@ SWEEP_SCHEMA_ID = "https://tonepair.invalid/schema/sweep-1.json"
 
 def sweep_report(points, fit) -> dict:
     """JSON-ready report of a level sweep; points listed by Eb/N0 (lowest first)."""
-    from . import __version__, theory
-    from .report.json_report import _num, _pair
+    from .. import __version__, theory
+    from ..report.json_report import _num, _pair
 
     out = []
     for p, used, res, ub in zip(points, fit.used, fit.residuals_db, fit.upper_bounds_db):
@@ -317,9 +317,9 @@ def run_sweep(captures: list[Path], tones, baud, reference: str | None, spec_pat
               formats: str | None = None, json_path: Path | None = None, html_path: Path | None = None,
               pdf_path: Path | None = None) -> int:
     """Analyse each capture of a level sweep, fit one implementation loss, write the reports asked for."""
-    from .report import figures, style
-    from .report.html import env, generated_at
-    from .sweep import SweepPoint, fit_loss
+    from ..report import figures, style
+    from ..report.html import env, generated_at
+    from ..batch import SweepPoint, fit_loss
 
     if not captures:
         raise InputError("sweep needs at least one capture", None, "give CAPTURE...")
@@ -355,7 +355,7 @@ def run_sweep(captures: list[Path], tones, baud, reference: str | None, spec_pat
         items.append((paths["html"], env().get_template("sweep.html.j2").render(
             r=report, fig=pic.base64(), generated=generated_at())))
     if "pdf" in paths:
-        from .report.pdf import render_sweep_pdf
+        from ..report.pdf import render_sweep_pdf
 
         items.append((paths["pdf"], render_sweep_pdf(report, pic)))
     written = write_all(items)

@@ -15,8 +15,8 @@ from typing import Optional
 
 import typer
 
-from . import __version__
-from .errors import InputError
+from .. import __version__
+from ..errors import InputError
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, rich_markup_mode=None,
                   help="tonepair: measure two-tone FSK bursts in a capture - tones, symbol rate, "
@@ -153,7 +153,7 @@ def analyze(
       tonepair analyze sample_captures/beacon_demo.sigmf-meta --tones -2500,2500 --baud 5000
       tonepair analyze receiver.wav        (no hints: bursts, tones and rate found blind)
     """
-    from .commands import run_analyze
+    from ._commands import run_analyze
 
     try:
         code = run_analyze(capture=capture, tones=_pair(tones, "--tones"), baud=baud, rate=rate,
@@ -256,7 +256,7 @@ def synth(
       tonepair synth radio.wav --audio --tones 1200,2200 --baud 1200 --rate 48000 --receiver-audio --tilt -3
       tonepair synth old.sigmf-meta --random-phase     (switched oscillators)
     """
-    from .commands import run_synth
+    from ._commands import run_synth
 
     try:
         if deviation is not None and index is not None:
@@ -318,7 +318,7 @@ def sweep(
     Example:
       tonepair sweep levels/*.sigmf-meta --reference PN9 --formats json,html,pdf
     """
-    from .commands import run_sweep
+    from ._commands import run_sweep
 
     try:
         code = run_sweep(captures=captures, tones=_pair(tones, "--tones"), baud=baud, reference=reference,
@@ -371,8 +371,8 @@ def batch(
 
     Exit code 2 if any capture could not be analysed, else 1 if any failed its spec, else 0.
     """
-    from .batch import BatchOptions, run_batch
-    from .commands import parse_formats
+    from ..batch import BatchOptions, run_batch
+    from ._commands import parse_formats
 
     try:
         overrides = {"json": json_path, "html": html_path, "pdf": pdf_path}

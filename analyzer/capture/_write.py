@@ -24,7 +24,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError, warn
+from ..errors import InputError, warn
 
 __all__ = ["write_sigmf", "write_audio", "write_raw", "NAMESPACE", "SIGMF_DATATYPES", "RAW_FORMATS"]
 

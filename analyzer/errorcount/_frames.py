@@ -37,7 +37,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import theory
+from .. import theory
 
 __all__ = ["FLAG_BITS", "GOOD_RESIDUE", "MIN_FRAME_BITS", "Frame", "FrameCount", "FrameTheory",
            "crc16_x25", "fcs_bytes", "nrzi_decode", "nrzi_encode", "flag_positions", "remove_stuffing",

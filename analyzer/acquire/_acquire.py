@@ -41,8 +41,7 @@ import functools
 from dataclasses import dataclass
 
 import numpy as np
-from .branches import (EnergyTrace, SymbolGrid, energy_trace, oscillator, sliding_sums, symbol_grid,
-                       window_energy)
+from ..branches import EnergyTrace, SymbolGrid, energy_trace, oscillator, sliding_sums, symbol_grid, window_energy
 
 __all__ = [
     "PowerTrace", "TraceFrames", "BurstSpan", "band_power_frames", "find_bursts", "quiet_floor",

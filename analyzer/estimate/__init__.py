@@ -1,0 +1,14 @@
+"""Estimates from the branch outputs: branch statistics (gains, noise), physical Eb/N0, 95% intervals."""
+
+from ._branch_stats import (
+    BranchStats, GroupMoments, branch_stats, group_moments, phase_continuity, pool_moments,
+    with_physical_ebn0,
+)
+from ._intervals import burst_intervals
+from ._signal_energy import EnergySums, energy_sums, physical_ebn0, pool_energy
+
+__all__ = [
+    "BranchStats", "GroupMoments", "branch_stats", "group_moments", "phase_continuity",
+    "pool_moments", "with_physical_ebn0", "burst_intervals", "EnergySums", "energy_sums",
+    "physical_ebn0", "pool_energy",
+]
