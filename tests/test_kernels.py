@@ -21,9 +21,9 @@ import numpy as np
 import pytest
 from scipy import signal, special, stats
 
-from analyzer import acquire, branches, diagnostics, estimate
+from analyzer import acquire, branches, diagnostics, estimate, survey
 from analyzer.estimate import GroupMoments
-from analyzer.acquire import _acquire  # private kernel, tested directly
+from analyzer.acquire import _timing  # private kernel, tested directly
 from analyzer.branches import _correlate  # private kernel, tested directly
 from analyzer.diagnostics import _diagnostics  # private kernel, tested directly
 
@@ -63,7 +63,7 @@ def test_correlate_matches_direct_template_sums(first):
 def test_block_sums_match_numpy_sum(d):
     rng = np.random.default_rng(d)
     y = (rng.standard_normal((501, d)) + 1j * rng.standard_normal((501, d))) * 10.0 ** rng.integers(-3, 4, (501, d))
-    got = _acquire._block_sums(y)
+    got = _timing._block_sums(y)
     ref = np.sum(y, axis=1)                              # reference: numpy.sum along the rows
     # tolerance: rounding of d additions, relative to the sum of magnitudes
     assert np.all(np.abs(got - ref) <= 4 * d * 1.2e-16 * np.sum(np.abs(y), axis=1))
@@ -115,7 +115,7 @@ def test_line_search_matches_zoom_fft(n, ppm):
     t = np.arange(n)
     v = np.cos(2 * np.pi * rate * t / fs + 0.4) + 3.0 * rng.standard_normal(n)
     lo, hi = 50e3 * (1 - ppm * 1e-6), 50e3 * (1 + ppm * 1e-6)
-    got_rate, got_peak, got_q = _acquire._line_search(v, fs, lo, hi)
+    got_rate, got_peak, got_q = _timing._line_search(v, fs, lo, hi)
     res = fs / n
     f = np.arange(lo, hi, res / 64)
     ref = np.abs(signal.zoom_fft(v, [f[0], f[-1]], m=len(f), fs=fs, endpoint=True)) ** 2
@@ -152,9 +152,9 @@ def test_trace_noise_estimate_is_unbiased_and_ignores_an_interferer():
     sigma2 = 0.3
     x = np.sqrt(sigma2 / 2) * (rng.standard_normal(n) + 1j * rng.standard_normal(n))
     band, noise_bands = (-1e5, 1e5), [(-5e5, -1.5e5), (1.5e5, 5e5)]
-    bins = acquire.band_bins(fs, band, frame)
+    bins = survey.band_bins(fs, band, frame)
     expected = sigma2 * bins / frame            # white noise: in-band power = variance x bins/frame (Parseval)
-    tf = acquire.band_power_frames(x, fs, band, frame, noise_bands)
+    tf = survey.band_power_frames(x, fs, band, frame, noise_bands)
     power, nd = tf.power, tf.noise
     # the trace itself and the out-of-band estimate both average to it (40000 frames of 13 bins:
     # 1% is 7 sd of the mean)
@@ -163,7 +163,7 @@ def test_trace_noise_estimate_is_unbiased_and_ignores_an_interferer():
     # a strong tone centred on a bin of the noise band (rectangular frames: no leakage to other
     # bins, so one group of bins is hit) leaves the estimate within 10%
     t = np.arange(n)
-    nd_i = acquire.band_power_frames(x + 3.0 * np.exp(2j * np.pi * 3.125e5 * t / fs), fs, band, frame,
+    nd_i = survey.band_power_frames(x + 3.0 * np.exp(2j * np.pi * 3.125e5 * t / fs), fs, band, frame,
                                      noise_bands).noise
     assert np.median(nd_i) == pytest.approx(np.median(nd), rel=0.10)
 
@@ -175,7 +175,7 @@ def test_trace_frames_match_a_double_precision_dft():
     x = (0.3 * (rng.standard_normal(frame * n_frames + 17) + 1j * rng.standard_normal(frame * n_frames + 17))
          + 0.1 - 0.2j).astype(np.complex64)
     band, noise_bands = (-1e5, 1e5), [(-5e5, -1.5e5), (1.5e5, 5e5)]
-    tf = acquire.band_power_frames(x, fs, band, frame, noise_bands)
+    tf = survey.band_power_frames(x, fs, band, frame, noise_bands)
     frames = x[:frame * n_frames].astype(np.complex128).reshape(n_frames, frame)
     spec = np.abs(np.fft.fft(frames, axis=1)) ** 2
     f = np.fft.fftfreq(frame, 1 / fs)
@@ -188,13 +188,13 @@ def test_trace_frames_match_a_double_precision_dft():
     for lo, hi in noise_bands:
         noise |= (f >= lo) & (f <= hi)
     noise[0] = False
-    groups = np.array_split(np.flatnonzero(noise & ~inband), acquire.NOISE_GROUPS)
+    groups = np.array_split(np.flatnonzero(noise & ~inband), survey.NOISE_GROUPS)
     means = np.stack([spec[:, g].mean(axis=1) for g in groups], axis=1)
     k = np.count_nonzero(noise & ~inband) / len(groups)
     ref = np.median(means, axis=1) * k / special.gammaincinv(k, 0.5) * np.count_nonzero(inband) / frame**2
     np.testing.assert_allclose(tf.noise, ref, rtol=1e-5)
     # each frame's figures do not depend on where the block starts
-    later = acquire.band_power_frames(x[5 * frame:], fs, band, frame, noise_bands)
+    later = survey.band_power_frames(x[5 * frame:], fs, band, frame, noise_bands)
     for a, b in ((tf.power, later.power), (tf.noise, later.noise), (tf.energy, later.energy)):
         np.testing.assert_array_equal(a[5:], b)
 
@@ -205,8 +205,8 @@ def test_dc_correction_of_the_trace_matches_the_dft_without_the_offset():
     fs, frame, n_frames, d = 1e6, 64, 2000, 0.1 - 0.2j
     x = (0.3 * (rng.standard_normal(frame * n_frames) + 1j * rng.standard_normal(frame * n_frames)) + d)
     band = (-1e5, 1e5)
-    tf = acquire.band_power_frames(x.astype(np.complex64), fs, band, frame)
-    got = acquire.remove_dc(tf.power, tf.dc_bin, d, fs, band, frame)
+    tf = survey.band_power_frames(x.astype(np.complex64), fs, band, frame)
+    got = survey.remove_dc(tf.power, tf.dc_bin, d, fs, band, frame)
     spec = np.abs(np.fft.fft((x - d).reshape(n_frames, frame), axis=1)) ** 2
     f = np.fft.fftfreq(frame, 1 / fs)
     inband = (f >= band[0]) & (f <= band[1])
@@ -215,8 +215,8 @@ def test_dc_correction_of_the_trace_matches_the_dft_without_the_offset():
     np.testing.assert_allclose(got, ref, rtol=1e-5, atol=2e-6 * np.mean(ref))
     # a band that leaves out 0 Hz is not changed
     above = (1e5, 3e5)
-    tf2 = acquire.band_power_frames(x.astype(np.complex64), fs, above, frame)
-    np.testing.assert_array_equal(acquire.remove_dc(tf2.power, tf2.dc_bin, d, fs, above, frame), tf2.power)
+    tf2 = survey.band_power_frames(x.astype(np.complex64), fs, above, frame)
+    np.testing.assert_array_equal(survey.remove_dc(tf2.power, tf2.dc_bin, d, fs, above, frame), tf2.power)
 
 
 def test_doubling_means_equal_numpy_convolve():
@@ -239,7 +239,7 @@ def test_floor_track_follows_a_step_in_the_noise_level():
     n = 20000
     level = np.where(np.arange(n) < n // 2, 1.0, 10 ** 0.6)
     nd = level * stats.gamma(13, scale=1 / 13).rvs(n, random_state=rng)
-    tr = acquire.PowerTrace(np.zeros(n), nd, 64, 13, (-1e5, 1e5))
+    tr = survey.PowerTrace(np.zeros(n), nd, 64, 13, (-1e5, 1e5))
     track = acquire.floor_track(tr, float("nan"))
     # away from the step the track holds the level: a median of 17 means of 8 frames has a
     # spread of about 1.25 / sqrt(17 * 8 * 13) = 3% (normal approximation); the worst of the

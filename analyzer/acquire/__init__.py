@@ -1,22 +1,19 @@
 """Acquisition: bursts in the power trace, tones, symbol rate and timing, blind choice of the rate."""
 
-from ._acquire import (
-    NOISE_GROUPS, PowerTrace, SPECTROGRAM_CELLS, SPECTROGRAM_NFFT, TimingEstimate, TraceFrames,
-    band_bins, band_power_frames, blind_rate_candidates, blind_symbol_rate, blind_tones,
-    doubling_means, find_bursts, floor_track, frame_length, grid_fit, grid_for_span,
-    lag_products, line_fit, narrow_spectrum, noncoherent_frequency, occupied_band,
-    peak_tone_pairs, refine_timing, refine_tones, remove_dc, segment_symbols, smoothing_frames,
-    symbol_timing, tone_difference, tone_transitions,
-)
 from ._blind import BLIND_MIN_LINE_QUALITY, blind_rate, keying_contrast
+from ._bursts import doubling_means, find_bursts, floor_track, segment_symbols, smoothing_frames
+from ._coarse import blind_tones, occupied_band, peak_tone_pairs
+from ._timing import (
+    TimingEstimate, grid_fit, grid_for_span, line_fit, narrow_spectrum, refine_timing, symbol_timing,
+    tone_difference,
+)
+from ._tones import lag_products, noncoherent_frequency, refine_tones
 
 __all__ = [
-    "NOISE_GROUPS", "PowerTrace", "SPECTROGRAM_CELLS", "SPECTROGRAM_NFFT", "TimingEstimate",
-    "TraceFrames", "band_bins", "band_power_frames", "blind_rate_candidates",
-    "blind_symbol_rate", "blind_tones", "doubling_means", "find_bursts", "floor_track",
-    "frame_length", "grid_fit", "grid_for_span", "lag_products", "line_fit", "narrow_spectrum",
-    "noncoherent_frequency", "occupied_band", "peak_tone_pairs", "refine_timing",
-    "refine_tones", "remove_dc", "segment_symbols", "smoothing_frames", "symbol_timing",
-    "tone_difference", "tone_transitions", "BLIND_MIN_LINE_QUALITY", "blind_rate",
-    "keying_contrast",
+    "BLIND_MIN_LINE_QUALITY", "blind_rate", "keying_contrast",
+    "doubling_means", "find_bursts", "floor_track", "segment_symbols", "smoothing_frames",
+    "blind_tones", "occupied_band", "peak_tone_pairs",
+    "TimingEstimate", "grid_fit", "grid_for_span", "line_fit", "narrow_spectrum", "refine_timing",
+    "symbol_timing", "tone_difference",
+    "lag_products", "noncoherent_frequency", "refine_tones",
 ]

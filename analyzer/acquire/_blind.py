@@ -9,7 +9,8 @@ from __future__ import annotations
 import numpy as np
 
 from .. import branches
-from . import _acquire as acquire
+from ._coarse import blind_rate_candidates, blind_symbol_rate
+from ._timing import symbol_timing, tone_transitions
 
 __all__ = ["BLIND_MIN_LINE_QUALITY", "HARMONIC_LINE_SHARE", "blind_rate", "keying_contrast", "sub_multiple"]
 
@@ -38,8 +39,8 @@ def keying_contrast(x: np.ndarray, fs: float, tones, rate: float) -> float:
 
 def blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
     """Symbol rate and its timing-line quality with no hint, for the tones ``tones``; None if none."""
-    trans = acquire.tone_transitions(x, fs, tones)        # shared by every rate tried below
-    rs = acquire.blind_symbol_rate(x, fs, tones, transitions=trans)
+    trans = tone_transitions(x, fs, tones)        # shared by every rate tried below
+    rs = blind_symbol_rate(x, fs, tones, transitions=trans)
     if rs is None or not np.isfinite(rs) or rs <= 0 or rs > fs / 2:
         return None
     # the transition line can lock to a harmonic or a spur on weak bursts:
@@ -49,7 +50,7 @@ def blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
     # lines too -- at high SNR about as strong: the lowest rate whose line is
     # at least half as strong as the strongest is the symbol rate)
     tried = []
-    cands = [rs / k for k in (1, 2, 3, 4)] + acquire.blind_rate_candidates(x, fs, tones, transitions=trans)
+    cands = [rs / k for k in (1, 2, 3, 4)] + blind_rate_candidates(x, fs, tones, transitions=trans)
     energies: dict[int, branches.EnergyTrace] = {}      # one per window length
     for cand in cands:
         if fs / cand > len(x) / 16:
@@ -57,8 +58,8 @@ def blind_rate(x: np.ndarray, fs: float, tones) -> tuple[float, float] | None:
         w = int(np.floor(fs / cand))
         if w not in energies:
             energies[w] = branches.energy_trace(x, 0, w, tones, fs)
-        tried.append(acquire.symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
-                                           transitions=trans))
+        tried.append(symbol_timing(x, 0, fs, tones, cand, search_ppm=10000.0, energy=energies[w],
+                                   transitions=trans))
     if not tried:
         return None
     top = max(t.line_snr for t in tried)

@@ -220,7 +220,7 @@ def _trace_frame(cap: Capture, band: tuple[float, float], rs: float | None) -> t
     """Power-trace frame and noise bands for ``band`` (frame from the symbol rate when known)."""
     fs = cap.sample_rate_hz
     if rs is not None:
-        frame = acquire.frame_length(fs, rs)
+        frame = survey.frame_length(fs, rs)
         guard_hz = rs
     else:
         bw = band[1] - band[0]
@@ -1029,7 +1029,7 @@ def _checked_survey(cap: Capture, strict: bool, **kw) -> survey.Survey:
 def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, prior_warnings, block,
                      workers, strict=False) -> AnalysisResult:
     fs = cap.sample_rate_hz
-    nfft_psd = int(min(acquire.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
+    nfft_psd = int(min(survey.SPECTROGRAM_NFFT, 2 ** np.floor(np.log2(max(cap.n_samples, 16)))))
     # the passes: the survey (checks, DC, spectra, and the power trace when the band is
     # known from the hints), the power trace (blind only), then the bursts; progress
     # counts samples over all of them
@@ -1058,7 +1058,7 @@ def _analyze_capture(cap: Capture, opts: AnalysisOptions, bits_text, progress, p
             guard = rs if rs is not None else f1 - f0
             band = (f0 - guard, f1 + guard)
             known = survey.TraceSpec(band, *_trace_frame(cap, band, rs))
-        blk = _block_size(block, nfft_psd, acquire.SPECTROGRAM_NFFT, known.frame if known else 1)
+        blk = _block_size(block, nfft_psd, survey.SPECTROGRAM_NFFT, known.frame if known else 1)
         stage = "spectrum and power" if known else "spectrum"
         scan = _checked_survey(cap, strict, read=cap.read, n_samples=cap.n_samples, sample_rate_hz=fs, block=blk,
                                nfft_psd=nfft_psd, kind=cap.kind, clip_level=getattr(cap, "clip_level", None),

@@ -28,11 +28,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .. import acquire
 from ..errors import InputError
+from ._trace import PowerTrace, TraceFrames, band_bins, band_power_frames, remove_dc
 
 __all__ = ["QUANTUM", "TraceSpec", "Survey", "block_size", "blocks", "survey", "trace_pass",
-           "spectrogram_stride", "DC_FALSE_ALARM", "dc_offset_test"]
+           "spectrogram_stride", "DC_FALSE_ALARM", "dc_offset_test", "SPECTROGRAM_NFFT", "SPECTROGRAM_CELLS",
+           "cell_edges_hz"]
 
 #: Samples per partial sum (a power of two, at least the spectrogram frame).
 QUANTUM = 1 << 12
@@ -42,6 +43,14 @@ QUANTUM = 1 << 12
 #: steady as that of all of them).  Blind, every frame is transformed, since
 #: the band is found from them.
 SPECTROGRAM_MAX_FRAMES = 4800
+#: Spectrogram frame (samples) and the number of frequency cells its bins are summed into.
+SPECTROGRAM_NFFT = 1024
+SPECTROGRAM_CELLS = 128
+
+
+def cell_edges_hz(sample_rate_hz: float, cells: int = SPECTROGRAM_CELLS) -> np.ndarray:
+    """Frequency edges (cells + 1) of the spectrogram cells, Hz."""
+    return np.linspace(-sample_rate_hz / 2, sample_rate_hz / 2, cells + 1)
 
 
 #: Probability that a capture with no DC offset is reported as having one.
@@ -127,10 +136,10 @@ class Survey:
     spectrogram : numpy.ndarray
         (frames, cells) float32 power per cell, DC offset removed.
     spectrogram_stride : int
-        One frame of :data:`acquire.SPECTROGRAM_NFFT` samples in this many was transformed.
+        One frame of :data:`SPECTROGRAM_NFFT` samples in this many was transformed.
     freqs, psd : numpy.ndarray
         Averaged spectrum (fftshifted), DC offset removed.
-    trace : acquire.PowerTrace or None
+    trace : PowerTrace or None
         The band-power trace (DC offset removed) when a band was given.
     """
 
@@ -142,7 +151,7 @@ class Survey:
     spectrogram_stride: int
     freqs: np.ndarray
     psd: np.ndarray
-    trace: acquire.PowerTrace | None = None
+    trace: PowerTrace | None = None
 
 
 def block_size(block: int | None, default: int, *frames: int) -> int:
@@ -170,7 +179,7 @@ def spectrogram_stride(n_samples: int, every_frame: bool) -> int:
     """Spectrogram frames skipped per frame transformed (1 = all)."""
     if every_frame:
         return 1
-    return max(1, -(-(n_samples // acquire.SPECTROGRAM_NFFT) // SPECTROGRAM_MAX_FRAMES))
+    return max(1, -(-(n_samples // SPECTROGRAM_NFFT) // SPECTROGRAM_MAX_FRAMES))
 
 
 def _first_bad(x: np.ndarray, pos: int, path) -> None:
@@ -304,20 +313,19 @@ class _Trace:
             arrays = [np.zeros(n, dtype=t) for t in dtypes]
         self.power, self.noise, self.dc_bin, self.energy = arrays
 
-    def add(self, x: np.ndarray, pos: int) -> acquire.TraceFrames:
+    def add(self, x: np.ndarray, pos: int) -> TraceFrames:
         s = self.spec
-        tf = acquire.band_power_frames(x, self.fs, s.band, s.frame, s.noise_bands)
+        tf = band_power_frames(x, self.fs, s.band, s.frame, s.noise_bands)
         i = pos // s.frame
         j = i + len(tf.power)
         self.power[i:j], self.noise[i:j], self.dc_bin[i:j], self.energy[i:j] = \
             tf.power, tf.noise, tf.dc_bin, tf.energy
         return tf
 
-    def result(self, dc: complex) -> acquire.PowerTrace:
+    def result(self, dc: complex) -> PowerTrace:
         s = self.spec
-        power = acquire.remove_dc(self.power, self.dc_bin, dc, self.fs, s.band, s.frame)
-        return acquire.PowerTrace(power, self.noise, s.frame,
-                                  acquire.band_bins(self.fs, s.band, s.frame), s.band)
+        power = remove_dc(self.power, self.dc_bin, dc, self.fs, s.band, s.frame)
+        return PowerTrace(power, self.noise, s.frame, band_bins(self.fs, s.band, s.frame), s.band)
 
 
 @dataclass
@@ -337,8 +345,8 @@ def _stretch(read, lo: int, hi: int, block: int, setup: tuple, trace: _Trace | N
     """The pass over samples ``lo <= n < hi`` (``lo`` a multiple of ``block``); trace frames go into ``trace``;
     each read is shown to ``digest`` (``digest.seen(pos, x)``), in order."""
     sample_rate_hz, nfft_psd, kind, clip_level, path, stride = setup
-    nfft = acquire.SPECTROGRAM_NFFT
-    part = _Partial(_Periodograms(nfft, acquire.SPECTROGRAM_CELLS, stride),
+    nfft = SPECTROGRAM_NFFT
+    part = _Partial(_Periodograms(nfft, SPECTROGRAM_CELLS, stride),
                     _Periodograms(nfft_psd, None, 1) if nfft_psd != nfft else None, [], [])
     pos = lo
     while pos < hi:
@@ -443,7 +451,7 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
     block : int
         Samples per read (a multiple of QUANTUM and of every frame length; see :func:`block_size`).
     nfft_psd : int
-        Frame of the averaged spectrum: :data:`acquire.SPECTROGRAM_NFFT`, or
+        Frame of the averaged spectrum: :data:`SPECTROGRAM_NFFT`, or
         shorter for captures shorter than that (then with no spectrogram).
     kind : str
         ``"iq"`` or ``"audio"`` (audio: only the real part is stored, so only
@@ -494,7 +502,7 @@ def survey(read, n_samples: int, sample_rate_hz: float, block: int, nfft_psd: in
 
 
 def trace_pass(read, n_samples: int, sample_rate_hz: float, block: int, spec: TraceSpec, dc: complex = 0j,
-               progress=None, stage: str = "power trace") -> acquire.PowerTrace:
+               progress=None, stage: str = "power trace") -> PowerTrace:
     """One more pass over the raw samples for the band-power trace (DC offset ``dc`` removed)."""
     tr = _Trace(spec, sample_rate_hz, n_samples)
     for pos, x in blocks(read, n_samples, block, progress, stage):
