@@ -1,10 +1,9 @@
-"""Blockwise reading: results do not depend on the block size; progress covers every pass.
+"""Blockwise reading: regions read in pieces, progress covers every pass, workers give the same numbers.
 
-References: whole-file processing (the default block holds these small captures
-whole) is the reference for the block-size checks -- the same numbers within
-zero tolerance; ``numpy.fromfile`` + ``numpy.mean`` (general-purpose library)
-for the DC offset; the rich/terminal rule "no bar when stdout is not a
-terminal" is the product's own contract (the issue).
+References: the single-process run is the reference for the worker check -- the
+same numbers within zero tolerance; the rich/terminal rule "no bar when stdout
+is not a terminal" is the product's own contract (the issue).  The block-size
+checks of the survey pass are in tests/survey/test_survey_blocks.py.
 """
 
 from __future__ import annotations
@@ -16,7 +15,6 @@ import numpy as np
 import pytest
 
 from analyzer import pipeline, capture
-from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
 from analyzer.cli import _commands  # private: the progress bar has no public door
 from analyzer.pipeline import _pipeline  # private: region limits and the reader patched in tests
@@ -44,34 +42,6 @@ def dc_capture(tmp_path_factory):
                                  start_offset_samples=3000.5, seed=7))
     x = res.samples + (0.01 - 0.004j)
     return capture.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
-
-
-@pytest.mark.parametrize("hints", [True, False])
-def test_tiny_blocks_give_the_same_report_as_whole_file(dc_capture, hints):
-    kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000) if hints else {}
-    whole = json_report.build_report(pipeline.analyze(dc_capture, **kw))
-    tiny = json_report.build_report(pipeline.analyze(dc_capture, block=pipeline.QUANTUM, **kw))
-    assert pipeline.QUANTUM < whole["capture"]["samples"] / 8          # the tiny run really is blockwise
-    assert len(whole["bursts"]) == 3
-    # bursts straddle block edges: some start and stop lie in different blocks
-    straddle = [b for b in whole["bursts"]
-                if int(b["start_sample"]) // pipeline.QUANTUM != int(b["stop_sample"]) // pipeline.QUANTUM]
-    assert len(straddle) == 3
-    a, b = dict(_numbers(whole)), dict(_numbers(tiny))
-    assert a.keys() == b.keys()
-    diff = {k: (a[k], b[k]) for k in a if a[k] != b[k]}
-    assert diff == {}                                                    # tolerance: exactly equal
-
-
-def test_dc_offset_matches_numpy_mean_of_whole_file(dc_capture):
-    data = np.fromfile(str(dc_capture).replace(".sigmf-meta", ".sigmf-data"), dtype=np.complex64)
-    ref = np.mean(data.astype(np.complex128))                            # reference: numpy over the whole file
-    rep = json_report.build_report(pipeline.analyze(dc_capture, tones_hz=(-2500, 2500), symbol_rate_hz=5000,
-                                                    block=pipeline.QUANTUM))
-    i, q = rep["capture"]["dc_offset_iq"]
-    # tolerance 1e-9 of full scale: with the band known, each frame's sum is its 0 Hz bin from a
-    # single-precision FFT; the samples themselves are single precision (spacing 6e-8 near 1)
-    assert abs(i - ref.real) < 1e-9 and abs(q - ref.imag) < 1e-9
 
 
 def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
