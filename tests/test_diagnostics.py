@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 from scipy import integrate, special, stats
 
-from analyzer import branches, diagnostics, pipeline
+from analyzer import branches, diagnostics, pipeline, theory
 from analyzer.capture import ArrayCapture
 from analyzer.report import json_report
 from analyzer.synth import SynthParams, synthesize
@@ -99,8 +99,8 @@ def test_likelihood_rule_equal_energies_is_square_law():
     # Equal energies: the likelihood rule is the square-law rule, Pb = 1/2 exp(-Eb/2N0)
     # (Proakis & Salehi, from memory); relative tolerance 1e-5, gain within 0.01 dB of 0.
     for x in (2.0, 10.0, 30.0):
-        assert diagnostics.ber_likelihood(x, x) == pytest.approx(0.5 * np.exp(-x / 2), rel=1e-5)
-    assert abs(diagnostics.decision_gain(10.0, 0.0).gain_db) < 0.01
+        assert theory.ber_likelihood(x, x) == pytest.approx(0.5 * np.exp(-x / 2), rel=1e-5)
+    assert abs(theory.decision_gain(10.0, 0.0).gain_db) < 0.01
 
 
 def test_likelihood_ber_monte_carlo():
@@ -120,7 +120,7 @@ def test_likelihood_ber_monte_carlo():
         rs = stats.rice.rvs(g[s], size=n, random_state=rng)
         ro = stats.rayleigh.rvs(size=n, random_state=rng)
         errs += np.count_nonzero(lam(g[o], ro) > lam(g[s], rs))
-    pb = diagnostics.ber_likelihood(e0, e1)
+    pb = theory.ber_likelihood(e0, e1)
     lo, hi = stats.binom.ppf(5e-6, 2 * n, pb), stats.binom.isf(5e-6, 2 * n, pb)
     assert lo <= errs <= hi                  # binomial band of probability 1 - 1e-5 (false failure 1e-5) (scipy.stats.binom)
     # and the square-law rule at the same point, 1/4 (exp(-E0/2N0) + exp(-E1/2N0)) (Proakis & Salehi,

@@ -21,10 +21,11 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from analyzer import branches, diagnostics, estimate
+from analyzer import branches, diagnostics, estimate, theory
 from analyzer.estimate import GroupMoments
 from analyzer.branches import _correlate  # private kernel, tested directly
 from analyzer.diagnostics import _diagnostics  # private kernel, tested directly
+from analyzer.theory import _likelihood  # private kernel, tested directly
 
 
 @pytest.mark.parametrize("freq, first, count", [(12345.678, 0, 1000), (-0.31e6, 987_654_321, 5000),
@@ -324,7 +325,7 @@ def test_ln_i0_inverse_inverts_scipy_bessel():
 
     x = np.concatenate([np.linspace(0.0, 5.0, 501), np.geomspace(5.0, 5000.0, 300)])
     c = np.log(special.i0e(x)) + x                       # reference: ln I0(x) from scipy.special.i0e
-    got = _diagnostics._ln_i0_inverse(c)
+    got = _likelihood._ln_i0_inverse(c)
     np.testing.assert_allclose(got, x, rtol=1e-9, atol=1e-12)         # two Newton steps from the start
 
 
@@ -346,7 +347,7 @@ def test_likelihood_rule_error_matches_a_direct_integration():
         return np.exp(-0.5 * h * h)
 
     ref = integrate.quad(lambda r: stats.rice.pdf(r, g0) * tail(r), 0.0, g0 + 12.0, limit=200)[0]
-    got = float(_diagnostics._lr_error_given(g0, g1)[0])
+    got = float(_likelihood._lr_error_given(g0, g1)[0])
     assert got == pytest.approx(ref, rel=1e-8)            # quad's default relative tolerance, 1.5e-8
 
 
@@ -382,13 +383,13 @@ def _lr_reference(gs, go):
 def test_likelihood_rule_quadrature_matches_adaptive_quad(e_sent, e_other):
     gs, go = np.sqrt(2 * e_sent), np.sqrt(2 * e_other)
     ref = _lr_reference(gs, go)                            # reference: scipy.integrate.quad, epsrel 1e-12
-    got = _diagnostics._lr_error_given(gs, go)
+    got = _likelihood._lr_error_given(gs, go)
     assert got.shape == (1,)
     # tolerance: the composite Gauss-Legendre rule converges geometrically on each smooth piece
     # (about 1e-14 here); 1e-10 leaves room for the reference's own error
     assert got[0] == pytest.approx(ref, rel=1e-10, abs=1e-300)
     # several pairs in one call give each pair's value
-    both = _diagnostics._lr_error_given([gs, go], [go, gs])
+    both = _likelihood._lr_error_given([gs, go], [go, gs])
     assert both[0] == pytest.approx(got[0], rel=1e-15, abs=1e-300)
     assert both[1] == pytest.approx(_lr_reference(go, gs), rel=1e-10, abs=1e-300)
 
@@ -398,12 +399,12 @@ def test_likelihood_rule_quadrature_matches_adaptive_quad(e_sent, e_other):
 def test_decision_gain_root_matches_brentq(ebn0_db, imbalance_db):
     from scipy.optimize import brentq
 
-    got = diagnostics.decision_gain(10 ** (ebn0_db / 10), imbalance_db)
+    got = theory.decision_gain(10 ** (ebn0_db / 10), imbalance_db)
     r = 10 ** (abs(imbalance_db) / 10)
 
     def f(y_db):
         x = 10 ** (y_db / 10)
-        return np.log(diagnostics.ber_likelihood(2 * x / (1 + r), 2 * x * r / (1 + r))) - np.log(got.ber_square_law)
+        return np.log(theory.ber_likelihood(2 * x / (1 + r), 2 * x * r / (1 + r))) - np.log(got.ber_square_law)
 
     # reference: scipy.optimize.brentq on the same equation over the documented bracket, to 1e-10 dB
     ref = brentq(f, ebn0_db - 6.0, ebn0_db + 0.5, xtol=1e-10)

@@ -99,10 +99,10 @@ class BurstResult:
     nominal_tones_hz: tuple[float, float] | None
     checks: tuple[diagnostics.ModelCheck, ...] = ()
     trend: diagnostics.Trend | None = None
-    loss_parts: diagnostics.LossParts | None = None
+    loss_parts: theory.LossParts | None = None
     blind_ber: tuple[float, tuple[float, float]] | None = None
     phase_continuity: float = float("nan")
-    decision_gain: diagnostics.DecisionGain | None = None
+    decision_gain: theory.DecisionGain | None = None
     pulse: diagnostics.PulseShape | None = None
     leakage: diagnostics.Leakage | None = None
     noise_correlation: diagnostics.NoiseCorrelation | None = None
@@ -696,11 +696,11 @@ def _diagnose(x, x_start, fs, grid, tones, out, sent, stats, mom, rho, model, be
     ncor = diagnostics.noise_correlation(diagnostics.noise_window_outputs(x, x_start, grid, tones, fs), rho)
     parts = None
     if loss is not None and ber is not None and ber.errors > 0:
-        parts = diagnostics.loss_parts(loss.value, ber.rate, model, pulse.template_loss_db_mean,
+        parts = theory.loss_parts(loss.value, ber.rate, model, pulse.template_loss_db_mean,
                                        stats.ebn0_db - stats.correlator_ebn0_db)
     ok = np.isfinite(stats.ebn0_db)
-    blind = diagnostics.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if ok else None
-    gain = diagnostics.decision_gain(stats.ebn0, stats.imbalance_db) if ok else None
+    blind = theory.blind_ber(stats.ebn0_db, stats.ebn0_db_ci95, model) if ok else None
+    gain = theory.decision_gain(stats.ebn0, stats.imbalance_db) if ok else None
     return dict(checks=tuple(checks), trend=trend, loss_parts=parts, blind_ber=blind, decision_gain=gain,
                 pulse=pulse, leakage=leak, noise_correlation=ncor, output_correlation=corr)
 

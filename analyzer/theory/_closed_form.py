@@ -1,6 +1,6 @@
-"""Closed-form bit error rates, Marcum Q, binomial intervals and implementation loss.
+"""Closed-form bit error rates of noncoherent binary FSK and the Eb/N0 a BER needs.
 
-Pure functions on numpy arrays and floats, plus small frozen dataclasses; no I/O.
+Pure functions on numpy arrays and floats, plus a small frozen dataclass; no I/O.
 
 Conventions
 -----------
@@ -12,9 +12,6 @@ Conventions
   carries the leakage ``rho * sqrt(E_i)`` (or its conjugate) and the branch noises
   have covariance ``N0 * [[1, rho], [conj(rho), 1]]``.  Only ``|rho|`` enters the
   error rates below.
-* Implementation loss is positive when the link does worse than theory:
-  measured Eb/N0 (dB) minus the Eb/N0 (dB) the reference model needs for the
-  measured BER.
 """
 
 from __future__ import annotations
@@ -23,24 +20,12 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
-__all__ = [
-    "CORRELATION_NEGLIGIBLE",
-    "IMBALANCE_NEGLIGIBLE_DB",
-    "BER_LIMIT",
-    "LinkModel",
-    "LossEstimate",
-    "marcum_q1",
-    "ber_orthogonal",
-    "ber_correlated",
-    "ber_square_law",
-    "ber_expected",
-    "ebn0_required_db",
-    "clopper_pearson",
-    "binomial_band",
-    "implementation_loss_db",
-]
+from ._marcum import _bessel_series
+
+__all__ = ["CORRELATION_NEGLIGIBLE", "IMBALANCE_NEGLIGIBLE_DB", "BER_LIMIT", "LinkModel",
+           "ber_orthogonal", "ber_correlated", "ber_square_law", "ber_expected", "ebn0_required_db",
+           "blind_ber"]
 
 #: Tone correlation magnitude below which a link is treated as orthogonal.
 CORRELATION_NEGLIGIBLE = 0.02
@@ -49,107 +34,6 @@ IMBALANCE_NEGLIGIBLE_DB = 0.1
 #: BER approached by every model as Eb/N0 -> 0 (and reached at |rho| = 1).
 BER_LIMIT = 0.5
 
-# Series truncation: stop when the newest term is below this fraction of the sum.
-_SERIES_RTOL = 1e-18
-_SERIES_MAX_TERMS = 20000
-
-
-# ---------------------------------------------------------------------------
-# Marcum Q
-# ---------------------------------------------------------------------------
-def _bessel_series(ratio: np.ndarray, x: np.ndarray, k0: int, w0: float) -> np.ndarray:
-    """Return ``w0 * ive(0, x) * [k0 == 0] + sum_{k>=max(k0,1)} ratio**k * ive(k, x)``.
-
-    ``ratio`` must lie in [0, 1] and ``x >= 0`` (finite, same shape, 1-D).  The
-    terms are non-increasing in ``k`` (``I_k(x)`` decreases with the order for
-    ``x > 0`` and ``ratio <= 1``), so summation stops per element once the newest
-    term is below ``_SERIES_RTOL`` of the running sum.
-    """
-    total = w0 * special.ive(0, x) if k0 == 0 else np.zeros_like(x)
-    active = np.arange(x.size)
-    power = np.ones_like(x)
-    for k in range(1, _SERIES_MAX_TERMS):
-        if active.size == 0:
-            break
-        power[active] *= ratio[active]
-        term = power[active] * special.ive(k, x[active])
-        total[active] += term
-        done = term <= _SERIES_RTOL * total[active]
-        # A zero sum with zero term (ratio = 0 and w0 = 0) is converged too.
-        done |= term == 0.0
-        active = active[~done]
-    return total
-
-
-def marcum_q1(a, b):
-    """First-order Marcum Q function ``Q1(a, b)``.
-
-    ``Q1(a, b) = integral_b^inf x exp(-(x^2 + a^2)/2) I0(a x) dx``, the probability
-    that the envelope of a unit-variance-per-dimension complex Gaussian with mean
-    magnitude ``a`` exceeds ``b``.
-
-    Parameters
-    ----------
-    a, b : array_like of float
-        Non-negative arguments; broadcast against each other.  NaN propagates.
-
-    Returns
-    -------
-    numpy.ndarray or numpy.float64
-        ``Q1(a, b)`` with the broadcast shape (a numpy scalar for scalar input).
-
-    Raises
-    ------
-    ValueError
-        If any argument is negative.
-
-    Notes
-    -----
-    Evaluated with the Neumann series in exponentially scaled Bessel functions
-    ``ive(k, x) = exp(-x) I_k(x)``, which keeps every term finite:
-
-    * ``a < b``:  ``Q1 = exp(-(b-a)^2/2) * sum_{k>=0} (a/b)^k ive(k, ab)``
-    * ``a >= b``: ``Q1 = 1 - exp(-(a-b)^2/2) * sum_{k>=1} (b/a)^k ive(k, ab)``
-
-    The second form follows from the first and the symmetry relation
-    ``Q1(a,b) + Q1(b,a) = 1 + exp(-(a^2+b^2)/2) I0(ab)``.  Both series have
-    positive terms with ratio ``<= 1``, and for ``a >= b`` the result is at least
-    1/2, so there is no cancellation; near ``a = b`` the terms fall off like
-    ``exp(-k^2 / 2ab)`` and about ``9 sqrt(ab)`` terms are summed.  Relative error
-    is of the order of 1e-13 for ``a, b`` in [0, 40].  Edge values:
-    ``Q1(0, b) = exp(-b^2/2)``, ``Q1(a, 0) = 1``.
-
-    References
-    ----------
-    .. [1] J. I. Marcum, "A statistical theory of target detection by pulsed
-       radar", 1950 (definition and series) -- from memory.
-    .. [2] M. K. Simon and M.-S. Alouini, *Digital Communication over Fading
-       Channels*, Wiley (Marcum Q series and symmetry relation) -- from memory.
-    """
-    a_arr, b_arr = np.broadcast_arrays(np.asarray(a, dtype=float), np.asarray(b, dtype=float))
-    if np.any(a_arr < 0) or np.any(b_arr < 0):
-        raise ValueError("marcum_q1: arguments must be non-negative")
-    shape = a_arr.shape
-    av = a_arr.ravel()
-    bv = b_arr.ravel()
-    out = np.full(av.shape, np.nan)
-
-    finite = np.isfinite(av) & np.isfinite(bv)
-    out[np.isinf(bv) & np.isfinite(av)] = 0.0
-    out[np.isinf(av) & np.isfinite(bv)] = 1.0
-
-    lower = finite & (av < bv)
-    upper = finite & (av >= bv)
-    if np.any(lower):
-        al, bl = av[lower], bv[lower]
-        s = _bessel_series(al / bl, al * bl, 0, 1.0)
-        out[lower] = np.exp(-0.5 * (bl - al) ** 2) * s
-    if np.any(upper):
-        au, bu = av[upper], bv[upper]
-        ratio = np.divide(bu, au, out=np.zeros_like(au), where=au > 0)
-        s = _bessel_series(ratio, au * bu, 1, 0.0)
-        out[upper] = 1.0 - np.exp(-0.5 * (au - bu) ** 2) * s
-    return out.reshape(shape)[()]
 
 
 # ---------------------------------------------------------------------------
@@ -474,187 +358,17 @@ def ebn0_required_db(ber, model: LinkModel = LinkModel()):
     return vec(arr)[()]
 
 
-# ---------------------------------------------------------------------------
-# Binomial statistics
-# ---------------------------------------------------------------------------
-def clopper_pearson(errors, bits, level: float = 0.95):
-    """Exact (Clopper--Pearson) two-sided confidence interval for a BER.
 
-    Parameters
-    ----------
-    errors : array_like of int
-        Bit errors ``k`` (0 <= k <= n).
-    bits : array_like of int
-        Bits compared ``n`` (> 0).  Broadcast against ``errors``.
-    level : float, optional
-        Confidence level, default 0.95.
+def blind_ber(ebn0_db: float, ebn0_ci95_db, model: LinkModel) -> tuple[float, tuple[float, float]]:
+    """BER predicted from the fitted branch statistics alone, with an interval.
 
-    Returns
-    -------
-    (lo, hi) : tuple of numpy.ndarray or numpy.float64
-        ``lo = B^-1(alpha/2; k, n-k+1)`` (0 when ``k = 0``) and
-        ``hi = B^-1(1-alpha/2; k+1, n-k)`` (1 when ``k = n``), with
-        ``alpha = 1 - level`` and ``B^-1`` the inverse regularised incomplete
-        beta function.
-
-    References
-    ----------
-    .. [1] C. J. Clopper and E. S. Pearson, "The use of confidence or fiducial
-       limits illustrated in the case of the binomial", *Biometrika*, 1934
-       -- from memory.
+    The Eb/N0 interval is mapped through the theory of the measured link
+    (monotone), so the BER interval is ``[Pb(hi), Pb(lo)]``.
     """
-    if np.ndim(errors) == 0 and np.ndim(bits) == 0:
-        # one count: the same interval without the array machinery
-        k, n = float(errors), float(bits)
-        if n <= 0 or k < 0 or k > n:
-            raise ValueError("clopper_pearson: need 0 <= errors <= bits and bits > 0")
-        if not (0.0 < level < 1.0):
-            raise ValueError("clopper_pearson: level must be in (0, 1)")
-        alpha = 1.0 - level
-        lo = special.betaincinv(k, n - k + 1.0, alpha / 2.0) if k > 0 else 0.0
-        hi = special.betaincinv(k + 1.0, n - k, 1.0 - alpha / 2.0) if k < n else 1.0
-        return np.float64(lo), np.float64(hi)
-    k, n = np.broadcast_arrays(np.asarray(errors, dtype=float), np.asarray(bits, dtype=float))
-    if np.any(n <= 0) or np.any(k < 0) or np.any(k > n):
-        raise ValueError("clopper_pearson: need 0 <= errors <= bits and bits > 0")
-    if not (0.0 < level < 1.0):
-        raise ValueError("clopper_pearson: level must be in (0, 1)")
-    alpha = 1.0 - level
-    k_lo = np.where(k > 0, k, 1.0)
-    k_hi = np.where(k < n, k, n - 1.0)
-    with np.errstate(invalid="ignore"):
-        lo = np.where(k > 0, special.betaincinv(k_lo, n - k_lo + 1.0, alpha / 2.0), 0.0)
-        hi = np.where(k < n, special.betaincinv(k_hi + 1.0, n - k_hi, 1.0 - alpha / 2.0), 1.0)
-    return lo[()], hi[()]
+    return (_ber_at_db(ebn0_db, model),
+            (_ber_at_db(ebn0_ci95_db[1], model), _ber_at_db(ebn0_ci95_db[0], model)))
 
 
-def binomial_band(p, n, level: float = 0.999):
-    """Central band of error counts for ``n`` bits at BER ``p``.
-
-    Parameters
-    ----------
-    p : array_like of float
-        Bit error probability, in [0, 1].
-    n : array_like of int
-        Number of bits.
-    level : float, optional
-        Probability content of the band, default 0.999.
-
-    Returns
-    -------
-    (lo_count, hi_count) : tuple of numpy.ndarray of int or int
-        Smallest ``lo`` with ``P(K <= lo) >= (1-level)/2`` and smallest ``hi``
-        with ``P(K > hi) <= (1-level)/2`` for ``K ~ Binomial(n, p)``, so
-        ``P(lo <= K <= hi) >= level``.
-
-    References
-    ----------
-    .. [1] Binomial distribution quantiles; evaluated with ``scipy.stats.binom``.
-    """
-    if not (0.0 < level < 1.0):
-        raise ValueError("binomial_band: level must be in (0, 1)")
-    from scipy import stats             # imported where needed: a heavy module
-
-    tail = (1.0 - level) / 2.0
-    lo = stats.binom.ppf(tail, n, p)
-    hi = stats.binom.isf(tail, n, p)
-    return np.asarray(lo).astype(np.int64)[()], np.asarray(hi).astype(np.int64)[()]
-
-
-# ---------------------------------------------------------------------------
-# Implementation loss
-# ---------------------------------------------------------------------------
-@dataclass(frozen=True)
-class LossEstimate:
-    """Implementation loss and its approximate 95 % interval.
-
-    Attributes
-    ----------
-    value : float
-        Measured Eb/N0 minus required Eb/N0, dB (positive = worse than theory);
-        ``nan`` when there were no errors (or the BER is at/above 0.5).
-    ci95 : tuple of float
-        ``(lo, hi)`` in dB; ``nan`` for an end that is not bounded by the data
-        (``lo`` with zero errors), ``+inf`` for ``hi`` when the BER interval
-        reaches 0.5.
-    ber_used : float
-        The measured BER ``errors / bits`` used for ``value``.
-    """
-
-    value: float
-    ci95: tuple[float, float]
-    ber_used: float
-
-
-def implementation_loss_db(ebn0_db, ebn0_ci95_db, errors, bits,
-                           reference_model: LinkModel = LinkModel()) -> LossEstimate:
-    """Implementation loss of a measured link against a reference model.
-
-    Parameters
-    ----------
-    ebn0_db : float
-        Measured average Eb/N0, dB.
-    ebn0_ci95_db : (float, float)
-        95 % interval of the measured Eb/N0, dB.
-    errors, bits : int
-        Bit errors and bits compared.
-    reference_model : LinkModel, optional
-        Model the link is compared with; default ideal orthogonal BFSK.
-
-    Returns
-    -------
-    LossEstimate
-        ``value = ebn0_db - ebn0_required_db(errors/bits, reference_model)``.
-
-    Notes
-    -----
-    Let ``R(p) = ebn0_required_db(p)`` (decreasing in ``p``), ``[pL, pH]`` the
-    Clopper--Pearson 95 % interval of the BER and ``[E_lo, E_hi]`` the Eb/N0
-    interval.  With ``R = R(p_hat)``::
-
-        lo = value - sqrt((ebn0_db - E_lo)^2 + (R(pL) - R)^2)
-        hi = value + sqrt((E_hi - ebn0_db)^2 + (R - R(pH))^2)
-
-    i.e. the half-widths of the two intervals are added in quadrature on each
-    side.  This is an approximation that treats the Eb/N0 and BER estimates as
-    independent and each interval as a one-sigma-like scale; it is not an exact
-    coverage statement.  If ``pH >= 0.5`` the upper end is ``+inf``.
-
-    With zero errors there is no point estimate (``value = nan``) and only an
-    upper bound, taken conservatively from the two interval ends together:
-    ``ci95 = (nan, E_hi - R(pH))``.
-
-    References
-    ----------
-    .. [1] C. J. Clopper and E. S. Pearson, *Biometrika*, 1934 (BER interval)
-       -- from memory.
-    """
-    e = float(ebn0_db)
-    e_lo, e_hi = (float(v) for v in ebn0_ci95_db)
-    k = int(errors)
-    n = int(bits)
-    ber = k / n
-    p_lo, p_hi = (float(v) for v in clopper_pearson(k, n, 0.95))
-
-    def req(p: float) -> float:
-        # At or above the limit theory needs no Eb/N0 at all: treat as -inf dB,
-        # which sends the corresponding loss bound to +inf.
-        if p >= BER_LIMIT:
-            return -math.inf
-        return float(ebn0_required_db(p, reference_model))
-
-    r_at_hi = req(p_hi)
-    if k == 0:
-        return LossEstimate(math.nan, (math.nan, e_hi - r_at_hi), ber)
-
-    if ber >= BER_LIMIT:
-        r_at_lo = req(p_lo)
-        # No point estimate; the loss is at least (E_lo - R(pL)).
-        return LossEstimate(math.nan, (e_lo - r_at_lo, math.inf), ber)
-
-    r = req(ber)
-    r_at_lo = req(p_lo)
-    value = e - r
-    lo = value - math.hypot(e - e_lo, r_at_lo - r)
-    hi = value + math.hypot(e_hi - e, r - r_at_hi) if math.isfinite(r_at_hi) else math.inf
-    return LossEstimate(value, (lo, hi), ber)
+def _ber_at_db(x_db: float, model: LinkModel) -> float:
+    """:func:`ber_expected` at ``x_db`` dB (``nan`` when ``x_db`` is not finite)."""
+    return float(ber_expected(10 ** (x_db / 10), model)) if np.isfinite(x_db) else float("nan")
