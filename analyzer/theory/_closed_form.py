@@ -284,11 +284,6 @@ def _required_db_scalar(ber: float, model: LinkModel) -> float:
     log_target = math.log(ber)
     from scipy import optimize          # imported where needed: a heavy module
 
-
-    def f(x_db: float) -> float:
-        p = float(ber_expected(10.0 ** (x_db / 10.0), model))
-        return math.log(max(p, tiny)) - log_target
-
     if ber >= tiny:
         # Bracket from the closed forms: the orthogonal equal-energy link needs the
         # least Eb/N0; with rho and the energy ratio r >= 1, Pb <= 1/2 exp(-x (1-|rho|) / (1+r))
@@ -298,18 +293,26 @@ def _required_db_scalar(ber: float, model: LinkModel) -> float:
         r = 10.0 ** (abs(model.imbalance_db) / 10.0) if model.unequal else 1.0
         lo = 10.0 * math.log10(x_orth) - 1e-3
         hi = 10.0 * math.log10(x_orth * (1.0 + r) / (2.0 * (1.0 - rho))) + 1e-3
-        if f(lo) > 0.0 and f(hi) < 0.0:
-            return optimize.brentq(f, lo, hi, xtol=1e-12, rtol=4 * np.finfo(float).eps, maxiter=200)
+        if _log_ber_gap(lo, model, log_target) > 0.0 and _log_ber_gap(hi, model, log_target) < 0.0:
+            return optimize.brentq(_log_ber_gap, lo, hi, args=(model, log_target), xtol=1e-12,
+                                   rtol=4 * np.finfo(float).eps, maxiter=200)
     lo, hi = -10.0, 20.0
-    while f(lo) <= 0.0:
+    while _log_ber_gap(lo, model, log_target) <= 0.0:
         lo -= 20.0
         if lo < -400.0:
             return -math.inf
-    while f(hi) >= 0.0:
+    while _log_ber_gap(hi, model, log_target) >= 0.0:
         lo, hi = hi, hi + 10.0
         if hi > 400.0:
             return math.inf
-    return optimize.brentq(f, lo, hi, xtol=1e-12, rtol=4 * np.finfo(float).eps, maxiter=200)
+    return optimize.brentq(_log_ber_gap, lo, hi, args=(model, log_target), xtol=1e-12,
+                           rtol=4 * np.finfo(float).eps, maxiter=200)
+
+
+def _log_ber_gap(x_db: float, model: LinkModel, log_target: float) -> float:
+    """``ln ber_expected`` at ``x_db`` dB (floored at the smallest normal float) minus ``log_target``."""
+    p = float(ber_expected(10.0 ** (x_db / 10.0), model))
+    return math.log(max(p, np.finfo(float).tiny)) - log_target
 
 
 def ebn0_required_db(ber, model: LinkModel = LinkModel()):

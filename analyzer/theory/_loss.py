@@ -90,28 +90,31 @@ def implementation_loss_db(ebn0_db, ebn0_ci95_db, errors, bits,
     ber = k / n
     p_lo, p_hi = (float(v) for v in clopper_pearson(k, n, 0.95))
 
-    def req(p: float) -> float:
-        # At or above the limit theory needs no Eb/N0 at all: treat as -inf dB,
-        # which sends the corresponding loss bound to +inf.
-        if p >= BER_LIMIT:
-            return -math.inf
-        return float(ebn0_required_db(p, reference_model))
-
-    r_at_hi = req(p_hi)
+    r_at_hi = _required_db(p_hi, reference_model)
     if k == 0:
         return LossEstimate(math.nan, (math.nan, e_hi - r_at_hi), ber)
 
     if ber >= BER_LIMIT:
-        r_at_lo = req(p_lo)
+        r_at_lo = _required_db(p_lo, reference_model)
         # No point estimate; the loss is at least (E_lo - R(pL)).
         return LossEstimate(math.nan, (e_lo - r_at_lo, math.inf), ber)
 
-    r = req(ber)
-    r_at_lo = req(p_lo)
+    r = _required_db(ber, reference_model)
+    r_at_lo = _required_db(p_lo, reference_model)
     value = e - r
     lo = value - math.hypot(e - e_lo, r_at_lo - r)
     hi = value + math.hypot(e_hi - e, r - r_at_hi) if math.isfinite(r_at_hi) else math.inf
     return LossEstimate(value, (lo, hi), ber)
+
+
+def _required_db(p: float, model: LinkModel) -> float:
+    """:func:`ebn0_required_db` of ``p``; ``-inf`` at or above :data:`BER_LIMIT`.
+
+    There theory needs no Eb/N0 at all, which sends the corresponding loss bound to ``+inf``.
+    """
+    if p >= BER_LIMIT:
+        return -math.inf
+    return float(ebn0_required_db(p, model))
 
 
 @dataclass(frozen=True)
