@@ -1,17 +1,18 @@
-"""Why the link does worse than theory: model checks, causes of the loss, pulse, leakage, noise correlation."""
+"""Why the link does worse than theory: model checks of the correlator outputs, the measured
+pulse and its template loss, leakage, and the noise the correlators see."""
 
-from ._diagnostics import (
-    FLAG_LEVEL, Leakage, ModelCheck, NoiseCorrelation, PulseShape,
-    Trend, cross_branch_check, ebn0_trend,
-    envelope_cdf, f_test_oneway, idle_power_check, ks_test, leakage, measured_pulse,
-    model_checks, noise_correlation, noise_window_outputs, normal_test, output_correlations,
-    window_referenced,
+from ._envelope import envelope_cdf
+from ._model_checks import (
+    FLAG_LEVEL, ModelCheck, Trend, cross_branch_check, ebn0_trend, model_checks, output_correlations,
 )
+from ._noise import (
+    NoiseCorrelation, idle_power_check, noise_correlation, noise_window_outputs, window_referenced,
+)
+from ._pulse import Leakage, PulseShape, leakage, measured_pulse
 
 __all__ = [
-    "FLAG_LEVEL", "Leakage", "ModelCheck", "NoiseCorrelation",
-    "PulseShape", "Trend", "cross_branch_check",
-    "ebn0_trend", "envelope_cdf", "f_test_oneway", "idle_power_check", "ks_test", "leakage",
+    "FLAG_LEVEL", "Leakage", "ModelCheck", "NoiseCorrelation", "PulseShape", "Trend",
+    "cross_branch_check", "ebn0_trend", "envelope_cdf", "idle_power_check", "leakage",
     "measured_pulse", "model_checks", "noise_correlation", "noise_window_outputs",
-    "normal_test", "output_correlations", "window_referenced",
+    "output_correlations", "window_referenced",
 ]

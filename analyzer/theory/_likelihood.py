@@ -62,7 +62,7 @@ def _ln_i0_inverse(c: np.ndarray) -> np.ndarray:
 #: Rician density (width 1) times a smooth tail, analytic on each side of the
 #: point where the tail leaves 1 (a panel edge), so the rule converges
 #: geometrically; against adaptive quadrature it agrees to about 1e-14
-#: relative (see tests/test_kernels.py), with about 100 nodes where an
+#: relative (see tests/theory/test_likelihood_rule.py), with about 100 nodes where an
 #: equally spaced trapezoid needs thousands for 1e-6.
 _LR_ORDER = 16
 _LR_PANEL = 3.0
