@@ -153,7 +153,7 @@ def idle_power_check(moments, noise_var_complex, noise_per_sample: float, rho_ab
 
     The moment fit (:mod:`analyzer.estimate`) reads the noise of branch i off
     the idle power ``U_i = |rho|^2 g_j^2 + s_i^2``; ``noise_per_sample``
-    (:func:`measured_pulse`) measures it without that model.  Under the model
+    (:func:`analyzer.diagnostics.measured_pulse`) measures it without that model.  Under the model
     the two agree; ``U_i`` is a mean of ``n_i`` powers with relative standard
     deviation about ``1/sqrt(n_i)`` (exponential law), the independent level
     is far more precise, so ``(s_fit / s_ind - 1) sqrt(n)`` is referred to the
