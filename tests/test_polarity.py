@@ -33,7 +33,7 @@ def _raw_register(name, n_bits):
     """The register output from scipy (no O.150 inversion), in transmission order.
 
     scipy.signal.max_len_seq(n) with its default taps and all-ones start runs the register in the
-    other direction: max_len_seq(n)[i] == raw[(n - 1 - i) mod P] (see tests/test_prbs.py)."""
+    other direction: max_len_seq(n)[i] == raw[(n - 1 - i) mod P] (see tests/errorcount/test_prbs.py)."""
     n = PATTERNS[name].order
     seq = max_len_seq(n)[0].astype(np.uint8)
     period = seq.size

@@ -1,4 +1,4 @@
-"""Checks of analyzer.prbs against ITU-T O.150, scipy.signal.max_len_seq and published formulas.
+"""Checks of analyzer.errorcount (patterns, references, the error count) against ITU-T O.150, scipy.signal.max_len_seq and published formulas.
 
 References used (named again beside each check):
 * ITU-T O.150 -- pattern polynomials, periods, polarity, start state, longest runs (from memory)
@@ -22,7 +22,8 @@ from scipy.signal import max_len_seq
 from analyzer import errorcount
 from analyzer.errors import InputError
 from analyzer.errorcount import PATTERNS, Reference, count_errors, detect_pattern, parse_bits_text, prbs_sequence
-from analyzer.errorcount import _prbs  # private kernel, tested directly
+# the state table has no public door: count_errors only shows its effect, the bijection is checked directly
+from analyzer.errorcount import _patterns
 
 # ITU-T O.150 (from memory): name -> (register length n, period 2^n - 1, inverted?)
 O150 = {
@@ -76,7 +77,7 @@ def test_periods_polynomials_and_polarity_match_o150(name):
     assert int(np.count_nonzero(two[period:2 * period + 5] != two[:period + 5])) == 0
     # ... and no shorter: every non-zero n-bit state occurs exactly once per period
     # (Golomb, from memory), so the state table is a bijection onto 0..period-1.
-    table = _prbs._state_table(name)
+    table = _patterns._state_table(name)
     assert int(table[0]) == -1
     assert np.array_equal(np.sort(table[1:]), np.arange(period))
 
