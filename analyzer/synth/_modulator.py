@@ -156,17 +156,6 @@ def _shaped_phase(k: np.ndarray, tau: np.ndarray, d: np.ndarray, p: SynthParams)
     return acc
 
 
-def _shaped_frequency(k: np.ndarray, tau: np.ndarray, d: np.ndarray, p: SynthParams) -> np.ndarray:
-    """``sum_i d_i g(k + tau - i)``: the frequency offset from the centre, Hz."""
-    span = int(np.ceil(_kernel_halfwidth(p.pulse, p.bt, p.transition)))
-    pad = np.concatenate((np.zeros(span + 1), d, np.zeros(span + 1)))
-    kk = k + span + 1
-    acc = np.zeros(np.shape(tau))
-    for j in range(-span, span + 1):
-        acc = acc + pad[kk + j] * frequency_pulse(tau - j, p.pulse, p.bt, p.transition)
-    return acc
-
-
 def _bursts(p: SynthParams, rng: np.random.Generator, total: int, starts: np.ndarray, sps_tx: float,
             all_bits: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Unit-amplitude signal of all bursts (no burst gains) and the per-sample burst gain."""
