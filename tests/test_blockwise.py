@@ -17,7 +17,7 @@ import pytest
 from analyzer import pipeline, capture
 from analyzer.synth import SynthParams, synthesize
 from analyzer.cli import _commands  # private: the progress bar has no public door
-from analyzer.pipeline import _pipeline  # private: region limits and the reader patched in tests
+from analyzer.pipeline import _regions  # private: the region limit and the reader patched (no public door)
 
 
 def _numbers(obj, path=""):
@@ -47,9 +47,9 @@ def dc_capture(tmp_path_factory):
 def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
     """A region longer than MAX_REGION_SAMPLES is cut: no read of the bursts exceeds the limit."""
     limit = 16384
-    monkeypatch.setattr(_pipeline, "MAX_REGION_SAMPLES", limit)
+    monkeypatch.setattr(_regions, "MAX_REGION_SAMPLES", limit)
     sizes = []
-    real_reader = _pipeline._reader
+    real_reader = _regions.capture_reader
 
     def spy(cap, dc):
         r = real_reader(cap, dc)
@@ -59,7 +59,7 @@ def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
             return r(start, count)
         return read
 
-    monkeypatch.setattr(_pipeline, "_reader", spy)
+    monkeypatch.setattr(_regions, "capture_reader", spy)
     res = pipeline.analyze(dc_capture, tones_hz=(-2500, 2500), symbol_rate_hz=5000, block=pipeline.QUANTUM)
     region_reads = [s for s in sizes if s != pipeline.QUANTUM]
     assert region_reads and max(region_reads) <= limit                  # bound: the limit itself
@@ -112,17 +112,17 @@ def test_progress_bar_only_on_a_terminal(monkeypatch):
 _WORKER_CHECK = r"""
 import json, os, sys
 from analyzer import pipeline
-from analyzer.pipeline import _pipeline
+from analyzer.pipeline import _regions   # private: the per-region step spied on (no public door)
 from analyzer.errors import warn
 from analyzer.report import json_report
 meta, out = sys.argv[1], sys.argv[2]
 kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
 one = json_report.build_report(pipeline.analyze(meta, workers=1, block=8192, **kw))
-real = _pipeline._region_bursts
+real = _regions.region_bursts
 def spy(*args):
     warn(f"pid {os.getpid()}")                  # carried back with the region's warnings
     return real(*args)
-_pipeline._region_bursts = spy
+_regions.region_bursts = spy
 # the survey pass too: shared by the workers for any capture longer than a block
 from analyzer.survey import _pass as survey
 survey.PARALLEL_MIN_SAMPLES = 1
