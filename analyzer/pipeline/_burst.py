@@ -281,6 +281,11 @@ def _result(index: int, s: _Samples, tr: _Track, sy: _Sync, kn: _Known, f: _Fit,
     """The diagnostics, and everything measured gathered into the burst's result."""
     stats, rows = f.fit.stats, f.rows
     p = float(np.vdot(rows, rows).real) / max(rows.size, 1) / full_scale
+    continuity = float(estimate.phase_continuity(tr.out.z, kn.sent))
+    nominal_loss = None
+    if opts.tones_hz is not None:
+        nominal_loss = theory.nominal_template_loss_db((float(tr.tones[0]), float(tr.tones[1])), opts.tones_hz, s.fs,
+                                                      tr.grid.window)
     diag = diagnostics.diagnose_burst(s.x, s.x_start, s.fs, tr.grid, tr.tones, tr.out, kn.sent, stats,
                                       f.fit.moments, f.rho, th.model, kn.ber, th.loss, f.scale, rows)
     return BurstResult(
@@ -289,7 +294,8 @@ def _result(index: int, s: _Samples, tr: _Track, sy: _Sync, kn: _Known, f: _Fit,
         outputs=tr.out, decisions=tr.dec, sent=kn.sent, stats=stats, moments=f.fit.moments, rho=f.rho, ber=kn.ber,
         ber_theory=th.ber, theory_model=th.model, loss=th.loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),
-        nominal_tones_hz=opts.tones_hz, phase_continuity=float(estimate.phase_continuity(tr.out.z, kn.sent)),
+        nominal_tones_hz=opts.tones_hz, phase_continuity=continuity, keying=estimate.keying_name(continuity),
+        nominal_template_loss_db=nominal_loss,
         energy=f.fit.energy, frames=kn.frames, frame_theory=fth, ber_reason=ber_reason(opts, tr.dec, sy.ref, kn.ber),
         **diag.as_fields())
 

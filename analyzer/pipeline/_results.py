@@ -83,6 +83,8 @@ class BurstResult:
     frames: errorcount.FrameCount | None = None           # HDLC frames, when they are the reference
     frame_theory: errorcount.FrameTheory | None = None
     ber_reason: str | None = None                     # why no bit errors were counted (None when they were)
+    keying: str | None = None         # "continuous-phase" / "phase-discontinuous" (estimate.keying_name), None: unknown
+    nominal_template_loss_db: float | None = None     # templates at the nominal tones (None without --tones)
 
     @property
     def n_symbols(self) -> int:
