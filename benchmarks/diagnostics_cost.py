@@ -1,10 +1,10 @@
-"""Cost of the per-burst diagnostics (``analyzer.pipeline._diagnose``) and of each of its parts.
+"""Cost of the per-burst diagnostics (``analyzer.diagnostics.diagnose_burst``) and of each of its parts.
 
 Writes the 8 M-sample capture of ``benchmarks/throughput.py`` (50 kBd, 20
 samples per symbol, 4000-symbol bursts at Eb/N0 12 dB) into a temporary
 folder, analyses it once in this process (one worker, one BLAS thread, as the
-pipeline runs) while recording the arguments ``_diagnose`` is called with,
-then times ``_diagnose`` and every diagnostic it calls on those arguments,
+pipeline runs) while recording the arguments ``diagnose_burst`` is called with,
+then times ``diagnose_burst`` and every diagnostic it calls on those arguments,
 burst after burst, and prints the minimum over the runs in ms per burst.
 
 The likelihood-ratio gain takes its full path (a root search) only when the
@@ -21,12 +21,10 @@ import sys
 import tempfile
 import time
 from pathlib import Path
-from analyzer.pipeline import _pipeline  # private kernel, tested directly
 
 PARTS = ("model_checks", "output_correlations", "cross_branch_check", "ebn0_trend", "measured_pulse",
          "idle_power_check", "leakage", "noise_correlation", "noise_window_outputs", "loss_parts",
          "blind_ber", "decision_gain")
-THEORY_PARTS = ("loss_parts", "blind_ber", "decision_gain")     # the pipeline calls these from analyzer.theory
 
 
 def main() -> int:
@@ -38,9 +36,10 @@ def main() -> int:
 
     import throughput
     from analyzer import diagnostics, pipeline, theory
+    from analyzer.diagnostics import _burst_diagnosis  # the parts (theory's too) timed where the step looks them up
 
     calls = []
-    orig = _pipeline._diagnose
+    orig = diagnostics.diagnose_burst
 
     def record(*a):
         calls.append(a)
@@ -48,16 +47,15 @@ def main() -> int:
 
     with tempfile.TemporaryDirectory() as tmp:
         meta = throughput.write_capture(Path(tmp) / "bursts", 8_000_000)
-        _pipeline._diagnose = record
+        diagnostics.diagnose_burst = record
         try:
             pipeline.analyze(meta, tones_hz=throughput.TONES, symbol_rate_hz=throughput.BAUD, workers=1)
         finally:
-            _pipeline._diagnose = orig
+            diagnostics.diagnose_burst = orig
     print(f"{len(calls)} bursts")
 
     spent = {name: 0.0 for name in PARTS}
-    home = {name: theory if name in THEORY_PARTS else diagnostics for name in PARTS}
-    plain = {name: getattr(home[name], name) for name in PARTS}
+    plain = {name: getattr(_burst_diagnosis, name) for name in PARTS}
 
     def timed(name):
         f = plain[name]
@@ -70,21 +68,21 @@ def main() -> int:
                 spent[name] += time.perf_counter() - t
         return run
 
-    best = {name: float("inf") for name in PARTS + ("_diagnose",)}
+    best = {name: float("inf") for name in PARTS + ("diagnose_burst",)}
     with threadpool_limits(limits=1, user_api="blas"):
         for _ in range(args.repeat):
             for name in PARTS:
                 spent[name] = 0.0
-                setattr(home[name], name, timed(name))
+                setattr(_burst_diagnosis, name, timed(name))
             try:
                 t = time.perf_counter()
                 for c in calls:
-                    _pipeline._diagnose(*c)
+                    orig(*c)
                 whole = time.perf_counter() - t
             finally:
                 for name in PARTS:
-                    setattr(home[name], name, plain[name])
-            best["_diagnose"] = min(best["_diagnose"], whole)
+                    setattr(_burst_diagnosis, name, plain[name])
+            best["diagnose_burst"] = min(best["diagnose_burst"], whole)
             for name in PARTS:
                 best[name] = min(best[name], spent[name])
         full = float("inf")
@@ -95,7 +93,7 @@ def main() -> int:
                     theory.decision_gain(c[7].ebn0, imbalance_db)
             full = min(full, (time.perf_counter() - t) / 3)
     n = len(calls)
-    print(f"{'_diagnose':28s} {best['_diagnose'] / n * 1e3:7.3f} ms per burst (min of {args.repeat} runs)")
+    print(f"{'diagnose_burst':28s} {best['diagnose_burst'] / n * 1e3:7.3f} ms per burst (min of {args.repeat} runs)")
     for name in PARTS:
         print(f"  {name:26s} {best[name] / n * 1e3:7.3f}")
     print(f"{'decision_gain, full path':28s} {full / n * 1e3:7.3f} ms per call")

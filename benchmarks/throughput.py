@@ -23,7 +23,7 @@ per symbol or with ``--keying continuous`` continuous phase) are analysed once
 while the calls of the region analysis are recorded; then, on the same
 bursts in the same run, it times
 
-* the full per-burst analysis (``analyzer.pipeline._pipeline._region_bursts`` on the burst's
+* the full per-burst analysis (``analyzer.pipeline._regions.region_bursts`` on the burst's
   region: timing, tones, decisions, pattern sync, error count, statistics and
   diagnostics),
 * the minimum-work floor: the symbol matrix on the final grid (the analysis's
@@ -172,7 +172,7 @@ def _burst_calls(sps: int, continuous: bool = False) -> tuple[list, object, floa
     """Analyse BURSTS_PER_SPS bursts at ``sps`` samples per symbol, recording each region analysis's
     arguments; returns them, the result and the sample rate."""
     from analyzer import pipeline
-    from analyzer.pipeline import _pipeline  # the per-burst step, timed on its own
+    from analyzer.pipeline import _regions  # the per-region step, timed on its own (no public door)
     from analyzer.capture import ArrayCapture
     from analyzer.synth import SynthParams, synthesize
 
@@ -181,19 +181,19 @@ def _burst_calls(sps: int, continuous: bool = False) -> tuple[list, object, floa
                                  ebn0_db=EBN0_DB, n_bursts=BURSTS_PER_SPS, symbols_per_burst=BURST_SYMBOLS,
                                  gap_samples=float(2000 * sps), start_offset_samples=500.0 * sps, seed=sps,
                                  continuous_phase=continuous))
-    calls, real = [], _pipeline._region_bursts
+    calls, real = [], _regions.region_bursts
 
     def spy(*args):
         calls.append(args)
         return real(*args)
 
-    _pipeline._region_bursts = spy
+    _regions.region_bursts = spy
     try:
         out = pipeline.analyze_capture(ArrayCapture(res.samples, fs),
                                        pipeline.AnalysisOptions(BURST_TONES, BURST_BAUD, reference="auto"),
                                        workers=1)
     finally:
-        _pipeline._region_bursts = real
+        _regions.region_bursts = real
     return [c for c in calls if c[3] is not None], out, fs
 
 
@@ -243,7 +243,7 @@ def burst_table(repeat: int, continuous: bool = False) -> None:
     """Per-burst analysis time against the minimum-work floors, at 8, 16 and 32 samples per symbol."""
     from threadpoolctl import threadpool_limits
 
-    from analyzer.pipeline import _pipeline
+    from analyzer.pipeline import _regions
 
     rows = []
     with threadpool_limits(limits=1, user_api="blas"):
@@ -258,8 +258,8 @@ def burst_table(repeat: int, continuous: bool = False) -> None:
                 k = np.arange(sps)
                 templates = np.exp(-2j * np.pi * np.outer(k, b.tones_hz) / fs).astype(np.complex64)
                 osc = np.exp(-2j * np.pi * np.outer(b.tones_hz, np.arange(n * sps) % sps) / fs).astype(np.complex64)
-                _pipeline._region_bursts(*args)                                    # warm
-                full.append(_median_ms(lambda: _pipeline._region_bursts(*args), repeat))
+                _regions.region_bursts(*args)                                      # warm
+                full.append(_median_ms(lambda: _regions.region_bursts(*args), repeat))
                 floor.append(_median_ms(lambda: _floor(x, first, n, sps, templates), 5 * repeat))
                 mix.append(_median_ms(lambda: _floor_mix(x, first, n, sps, osc), 5 * repeat))
                 search.append(_median_ms(lambda: _floor_search(x, first, n, sps, templates), 3 * repeat))

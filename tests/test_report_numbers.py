@@ -1,7 +1,7 @@
 """What the reports say: burst numbers, and the same numbers and verdict in JSON, terminal and HTML.
 
 References: the JSON report is the record (checked against its schema with ``jsonschema`` in
-tests/test_pipeline.py); the terminal and HTML views must show its numbers as printed by the
+tests/pipeline/test_pipeline_analyze.py); the terminal and HTML views must show its numbers as printed by the
 report's own formats, and number the bursts 0, 1, 2 ... in time order (common practice for a
 list: consecutive numbers, so that a burst is found by its number in every view).
 """

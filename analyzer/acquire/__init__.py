@@ -1,6 +1,9 @@
 """Acquisition: bursts in the power trace, tones, symbol rate and timing, blind choice of the rate."""
 
 from ._blind import BLIND_MIN_LINE_QUALITY, blind_rate, keying_contrast
+from ._burst_timing import (
+    ENERGY_REUSE_TONE_SHIFT, MIN_BURST_SYMBOLS, SpanTiming, burst_timing, bursts_in_span, retime_burst,
+)
 from ._bursts import doubling_means, find_bursts, floor_track, segment_symbols, smoothing_frames
 from ._coarse import blind_tones, occupied_band, peak_tone_pairs
 from ._timing import (
@@ -16,4 +19,6 @@ __all__ = [
     "TimingEstimate", "grid_fit", "grid_for_span", "line_fit", "narrow_spectrum", "refine_timing",
     "symbol_timing", "tone_difference",
     "lag_products", "noncoherent_frequency", "refine_tones",
+    "ENERGY_REUSE_TONE_SHIFT", "MIN_BURST_SYMBOLS", "SpanTiming", "burst_timing", "bursts_in_span",
+    "retime_burst",
 ]

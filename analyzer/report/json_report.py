@@ -13,7 +13,6 @@ import numpy as np
 
 from .. import __version__
 from .. import estimate
-from ..branches import template_correlation
 
 SCHEMA_PATH = Path(__file__).with_name("report.schema.json")
 SCHEMA_ID = "https://tonepair.invalid/schema/report-1.json"
@@ -32,21 +31,6 @@ def _num(x):
 
 def _pair(v):
     return [_num(v[0]), _num(v[1])]
-
-
-def nominal_template_loss_db(tones_hz, nominal_hz, sample_rate_hz: float, window: int) -> float:
-    """Loss of templates fixed at the nominal tones against templates at the measured tones.
-
-    For a rectangular pulse at ``f`` and a template at ``f_nom`` this is
-    ``-10 log10 |D(f - f_nom)|^2``, ``D`` the normalised Dirichlet kernel over
-    the L samples of the window (-> sinc^2(df T)); the two tones are averaged
-    in energy.  Issue-level detail (measured pulse shapes) lives in the
-    diagnostics.
-    """
-    g = [abs(template_correlation((nominal_hz[i], tones_hz[i]), sample_rate_hz, window)) ** 2
-         for i in (0, 1)]
-    m = float(np.mean(g))
-    return float(-10 * np.log10(m)) if m > 0 else float("inf")
 
 
 def _noise_corr(nc):
@@ -114,7 +98,7 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "symbol_rate_hz": _num(b.symbol_rate_hz),
         "tone_correlation": _num(abs(b.rho)),
         "tone_imbalance_db": _num(b.stats.imbalance_db),
-        "nominal_template_loss_db": None,
+        "nominal_template_loss_db": _num(b.nominal_template_loss_db),
         "signal_gain": [_num(v) for v in b.stats.signal_gain],
         "noise_var": [_num(v) for v in b.stats.noise_var],
         "ebn0_db": _num(b.stats.ebn0_db),
@@ -130,8 +114,7 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "implementation_loss_db_ci95": lci,
         "power_dbfs": _num(b.power_dbfs),
         "phase_continuity": _num(b.phase_continuity),
-        "keying": ("continuous-phase" if b.phase_continuity > 0.5 else "phase-discontinuous")
-        if np.isfinite(b.phase_continuity) else None,
+        "keying": b.keying,
         "timing_quality": _num(b.timing_quality),
         "frames": _frames(getattr(b, "frames", None), getattr(b, "frame_theory", None), b.grid),
     }
@@ -170,9 +153,6 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
     d["centre_offset_hz_ci95"] = _pair(iv.centre_offset_hz)
     d["tone_imbalance_db_ci95"] = _pair(iv.imbalance_db)
     d["tone_correlation_ci95"] = _pair(iv.tone_correlation)
-    if b.nominal_tones_hz is not None:
-        d["nominal_template_loss_db"] = _num(nominal_template_loss_db(
-            b.tones_hz, b.nominal_tones_hz, sample_rate_hz, b.grid.window))
     return d
 
 

@@ -12,7 +12,7 @@ from scipy import stats
 
 from analyzer import pipeline, capture
 from analyzer.synth import SynthParams, synthesize
-from analyzer.pipeline import _pipeline  # private kernel, tested directly
+from analyzer.pipeline import _regions  # private: the region limit and the cut patched (no public door)
 
 
 def test_one_long_burst_is_split_into_pieces_and_still_counted(tmp_path, monkeypatch):
@@ -20,16 +20,16 @@ def test_one_long_burst_is_split_into_pieces_and_still_counted(tmp_path, monkeyp
     n_sym, ebn0 = 4000, 9.0
     res = synthesize(SynthParams(symbols_per_burst=n_sym, ebn0_db=ebn0, seed=31))
     meta = capture.write_sigmf(tmp_path / "long", res.samples, 80e3, truth=res.truth)
-    monkeypatch.setattr(_pipeline, "MAX_REGION_SAMPLES", limit)
+    monkeypatch.setattr(_regions, "MAX_REGION_SAMPLES", limit)
     pieces = []
-    real_split = _pipeline._split_region
+    real_split = _regions.split_region
 
     def spy(a, b, power, frame, lim):
         out = real_split(a, b, power, frame, lim)
         pieces.append(out)
         return out
 
-    monkeypatch.setattr(_pipeline, "_split_region", spy)
+    monkeypatch.setattr(_regions, "split_region", spy)
     out = pipeline.analyze(meta, tones_hz=(-2500, 2500), symbol_rate_hz=5000)
     cut = [p for p in pieces if len(p) > 1]
     assert cut, "the region was never split"

@@ -33,7 +33,7 @@ from analyzer import branches, pipeline, estimate, capture
 from analyzer.capture import ArrayCapture
 from analyzer.synth import SynthParams, synthesize
 
-DATA = Path(__file__).parent / "data"
+DATA = Path(__file__).parent.parent / "data"
 REAL = DATA / "afsk1200_satellite_downlink.wav"
 FS, RS = 48000.0, 2400.0
 TONES = (-2400.0, 2400.0)

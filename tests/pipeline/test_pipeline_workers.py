@@ -1,23 +1,20 @@
-"""Blockwise reading: regions read in pieces, progress covers every pass, workers give the same numbers.
+"""Regions read in pieces, progress covers every pass, workers give the same numbers.
 
 References: the single-process run is the reference for the worker check -- the
-same numbers within zero tolerance; the rich/terminal rule "no bar when stdout
-is not a terminal" is the product's own contract (the issue).  The block-size
-checks of the survey pass are in tests/survey/test_survey_blocks.py.
+same numbers within zero tolerance; the truth of the synthetic capture (3 bursts
+of 700 symbols) for the symbols counted over cut regions.  The block-size checks
+of the survey pass are in tests/survey/test_survey_blocks.py.
 """
 
 from __future__ import annotations
 
 import json
-import re
 
-import numpy as np
 import pytest
 
 from analyzer import pipeline, capture
 from analyzer.synth import SynthParams, synthesize
-from analyzer.cli import _commands  # private: the progress bar has no public door
-from analyzer.pipeline import _pipeline  # private: region limits and the reader patched in tests
+from analyzer.pipeline import _regions  # private: the region limit and the reader patched (no public door)
 
 
 def _numbers(obj, path=""):
@@ -47,9 +44,9 @@ def dc_capture(tmp_path_factory):
 def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
     """A region longer than MAX_REGION_SAMPLES is cut: no read of the bursts exceeds the limit."""
     limit = 16384
-    monkeypatch.setattr(_pipeline, "MAX_REGION_SAMPLES", limit)
+    monkeypatch.setattr(_regions, "MAX_REGION_SAMPLES", limit)
     sizes = []
-    real_reader = _pipeline._reader
+    real_reader = _regions.capture_reader
 
     def spy(cap, dc):
         r = real_reader(cap, dc)
@@ -59,7 +56,7 @@ def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
             return r(start, count)
         return read
 
-    monkeypatch.setattr(_pipeline, "_reader", spy)
+    monkeypatch.setattr(_regions, "capture_reader", spy)
     res = pipeline.analyze(dc_capture, tones_hz=(-2500, 2500), symbol_rate_hz=5000, block=pipeline.QUANTUM)
     region_reads = [s for s in sizes if s != pipeline.QUANTUM]
     assert region_reads and max(region_reads) <= limit                  # bound: the limit itself
@@ -81,48 +78,20 @@ def test_progress_covers_every_pass(dc_capture):
     assert all(b[0] >= a[0] for a, b in zip(calls, calls[1:]))          # never goes back
 
 
-def test_no_progress_bar_when_not_a_terminal(dc_capture, tmp_path, run_cli):
-    res = run_cli("analyze", dc_capture, "--tones", "-2500,2500", "--baud", "5000", "--out", tmp_path)
-    assert res.exit_code == 0, res.output
-    # the bar draws its segments with these glyphs (the summary never uses them),
-    # and the bar line carries the stage name and a percentage
-    assert sum(res.output.count(ch) for ch in "█·\r") == 0
-    assert len(re.findall(r"[█·]\s*\d{1,3}%", res.output)) == 0   # a bar followed by its percentage
-    assert res.output.count("spectrum and power") == 0                  # the first stage's name
-    quiet = run_cli("analyze", dc_capture, "--tones", "-2500,2500", "--baud", "5000", "--out", tmp_path / "q",
-                    "--quiet")
-    assert quiet.exit_code == 0 and len(quiet.stdout) == 0              # --quiet: nothing on stdout
-
-
-def test_progress_bar_only_on_a_terminal(monkeypatch):
-
-    class Tty:
-        def isatty(self):
-            return True
-
-    assert _commands._progress_bar(quiet=False) == (None, None)          # pytest's stdout is no terminal
-    monkeypatch.setattr(_commands.sys, "stdout", Tty())
-    prog, cb = _commands._progress_bar(quiet=False)
-    assert prog is not None and callable(cb)
-    cb(5, 20, "spectrum")
-    assert (prog.done, prog.total, prog.stage) == (5, 20, "spectrum")   # exact
-    assert _commands._progress_bar(quiet=True) == (None, None)
-
-
 _WORKER_CHECK = r"""
 import json, os, sys
 from analyzer import pipeline
-from analyzer.pipeline import _pipeline
+from analyzer.pipeline import _regions   # private: the per-region step spied on (no public door)
 from analyzer.errors import warn
 from analyzer.report import json_report
 meta, out = sys.argv[1], sys.argv[2]
 kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
 one = json_report.build_report(pipeline.analyze(meta, workers=1, block=8192, **kw))
-real = _pipeline._region_bursts
+real = _regions.region_bursts
 def spy(*args):
     warn(f"pid {os.getpid()}")                  # carried back with the region's warnings
     return real(*args)
-_pipeline._region_bursts = spy
+_regions.region_bursts = spy
 # the survey pass too: shared by the workers for any capture longer than a block
 from analyzer.survey import _pass as survey
 survey.PARALLEL_MIN_SAMPLES = 1
@@ -163,26 +132,3 @@ def test_worker_processes_give_the_same_report(tmp_path):
     a, b = dict(_numbers(one)), dict(_numbers(two))
     assert a.keys() == b.keys()
     assert {k: (a[k], b[k]) for k in a if a[k] != b[k]} == {}          # tolerance: exactly equal
-
-
-def test_shared_arrays_carry_what_a_forked_worker_writes():
-    # reference: the values the worker wrote (exact), seen by the parent without being sent back
-    import multiprocessing
-
-    from analyzer import parallel
-
-    if "fork" not in multiprocessing.get_all_start_methods():
-        pytest.skip("needs fork")
-    a, b = parallel.shared_zeros(5, (np.float64, np.complex128))
-    assert np.all(a == 0) and np.all(b == 0)                      # zero-filled (exact)
-
-    def write():
-        a[:] = np.arange(5.0)
-        b[2] = 1 - 2j
-
-    p = multiprocessing.get_context("fork").Process(target=write)
-    p.start()
-    p.join()
-    assert p.exitcode == 0
-    np.testing.assert_array_equal(a, np.arange(5.0))
-    assert b[2] == 1 - 2j and b[0] == 0

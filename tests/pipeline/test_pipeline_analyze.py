@@ -89,12 +89,19 @@ def test_continuous_phase_and_ci16(tmp_path):
     # Reference: the generator's Eb/N0 (0.3 dB) -- the ci16 quantisation adds noise far below N0.
     assert abs(out.summary.stats.ebn0_db - 8.0) < 0.3
     assert out.summary.ber.reference.startswith("PN9")
+    # the keying said on the result: the generator keeps the phase across symbols (its
+    # continuity is near 1; the threshold 0.5 sits midway to a new phase per symbol)
+    assert [b.keying for b in out.bursts] == ["continuous-phase"]
 
 
 def test_envelopes_follow_rice_and_rayleigh(tmp_path):
     params = SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=3000, seed=7)
     _, out = _analyse(tmp_path, params)
     b = out.bursts[0]
+    # a new phase per symbol: continuity about 1/sqrt(same-tone pairs), 0.03 for these ~1500
+    # pairs, against the threshold 0.5; a sum of N random unit phasors passes N/2 with probability
+    # about exp(-N/4) (Rayleigh tail, from memory): false failure far below 1e-100
+    assert b.keying == "phase-discontinuous"
     r = np.abs(b.outputs.z)
     sig = np.sqrt(b.stats.noise_var)
     g = b.stats.signal_gain
