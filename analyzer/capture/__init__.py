@@ -5,10 +5,10 @@ from ._digest import CaptureDigest, FileDigest, file_sha512
 from ._open import open_capture
 from ._raw import RAW_FORMATS
 from ._sigmf import verify_sha512
-from ._write import NAMESPACE, write_audio, write_raw, write_sigmf
+from ._write import NAMESPACE, replace_atomically, write_audio, write_raw, write_sigmf
 
 __all__ = [
     "CaptureDigest", "FileDigest", "file_sha512", "ArrayCapture", "Capture", "HILBERT_MARGIN",
-    "RAW_FORMATS", "open_capture", "read_all", "verify_sha512", "NAMESPACE", "write_audio",
-    "write_raw", "write_sigmf",
+    "RAW_FORMATS", "open_capture", "read_all", "verify_sha512", "NAMESPACE", "replace_atomically",
+    "write_audio", "write_raw", "write_sigmf",
 ]

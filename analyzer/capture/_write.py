@@ -26,7 +26,7 @@ import numpy as np
 
 from ..errors import InputError, warn
 
-__all__ = ["write_sigmf", "write_audio", "write_raw", "NAMESPACE", "SIGMF_DATATYPES", "RAW_FORMATS"]
+__all__ = ["write_sigmf", "write_audio", "write_raw", "replace_atomically", "NAMESPACE", "SIGMF_DATATYPES", "RAW_FORMATS"]
 
 #: Our SigMF extension namespace, declared in ``core:extensions``.
 NAMESPACE = {"name": "tonepair", "version": "0.1.0", "optional": True}
@@ -67,23 +67,45 @@ def _check_target(path: Path, overwrite: bool) -> None:
         raise InputError("already exists", path, "pass --overwrite to replace it, or choose another name")
 
 
-def _atomic(path: Path, fill) -> None:
-    """Call ``fill(tmp_path)`` on a temporary file beside ``path``, then move it over ``path``."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    mask = os.umask(0)
-    os.umask(mask)
-    os.fchmod(fd, 0o666 & ~mask)              # a temporary file is made 0600; a capture is not private
-    os.close(fd)
+def replace_atomically(path: Path, fill, hint: str = "choose a writable folder for the output") -> Path:
+    """Call ``fill(tmp_path)`` on a temporary file beside ``path``, then move it over ``path``.
+
+    The one atomic write of the package (captures here, reports in
+    :mod:`analyzer.report`): a reader never sees a half-written file, and a
+    failure leaves neither the temporary file nor a partial target.  The
+    temporary file gets the mode any new file gets (0666 less the umask), not
+    the 0600 of :func:`tempfile.mkstemp`.
+
+    Raises
+    ------
+    InputError
+        The folder cannot be created or written in (``hint`` says what to do).
+    """
+    p = Path(path)
     try:
+        p.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"cannot create the output folder ({exc.strerror or exc})", p.parent, hint) from None
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=p.parent)
+    except OSError as exc:
+        raise InputError(f"cannot write in the output folder ({exc.strerror or exc})", p.parent, hint) from None
+    try:
+        try:
+            mask = os.umask(0)
+            os.umask(mask)
+            os.fchmod(fd, 0o666 & ~mask)      # a temporary file is made 0600; the file is not private
+        finally:
+            os.close(fd)
         fill(Path(tmp))
-        os.replace(tmp, path)
+        os.replace(tmp, p)
     except BaseException:
         try:
             os.unlink(tmp)
         except FileNotFoundError:
             pass
         raise
+    return p
 
 
 def _write_bytes(path: Path, data: bytes | np.ndarray) -> None:
@@ -92,7 +114,7 @@ def _write_bytes(path: Path, data: bytes | np.ndarray) -> None:
             fp.write(data.tobytes() if isinstance(data, np.ndarray) else data)
             fp.flush()
             os.fsync(fp.fileno())
-    _atomic(path, fill)
+    replace_atomically(path, fill)
 
 
 def _as_samples(samples) -> np.ndarray:
@@ -232,7 +254,7 @@ def write_sigmf(base: Path, samples: np.ndarray, sample_rate_hz: float, datatype
         rec.validate()          # schema check by the sigmf package before anything is published
         holder["text"] = rec.dumps(pretty=True) + "\n"
 
-    _atomic(data_path, fill_data)
+    replace_atomically(data_path, fill_data)
     _write_bytes(meta_path, holder["text"].encode("utf-8"))
     return meta_path
 
@@ -298,7 +320,7 @@ def write_audio(path: Path, samples: np.ndarray, sample_rate_hz: int, subtype: s
     def fill(tmp: Path) -> None:
         sf.write(str(tmp), data, rate, subtype=st, format=container)
 
-    _atomic(path, fill)
+    replace_atomically(path, fill)
     if truth is not None:
         _write_bytes(side, _truth_json(truth).encode("utf-8"))
     elif side.exists():
