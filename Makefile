@@ -37,7 +37,7 @@ test-lowest: $(LOWEST)/installed
 	MPLBACKEND=Agg $(LOWEST)/bin/python -m pytest -q
 
 fuzz: venv-test
-	TONEPAIR_FUZZ_EXAMPLES=10000 $(BIN)/python -m pytest -q -m fuzz tests/test_fuzz_loaders.py
+	TONEPAIR_FUZZ_EXAMPLES=10000 $(BIN)/python -m pytest -q -m fuzz tests/capture/test_fuzz_loaders.py
 
 bench: venv
 	$(BIN)/python benchmarks/throughput.py

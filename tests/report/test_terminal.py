@@ -19,7 +19,7 @@ from typer.testing import CliRunner
 from analyzer.cli import app
 from analyzer.report.terminal import MAX_BURST_ROWS, Out, print_summary
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 TIGHT = """
 [link]
 tones_hz = [-2500.0, 2500.0]

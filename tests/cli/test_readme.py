@@ -15,8 +15,8 @@ from typer.testing import CliRunner
 
 from analyzer.cli import app
 
-ROOT = Path(__file__).resolve().parents[1]
-MARKER = "<!-- the output of the command above; tests/test_readme.py checks that it still is -->"
+ROOT = Path(__file__).resolve().parents[2]
+MARKER = "<!-- the output of the command above; tests/cli/test_readme.py checks that it still is -->"
 
 
 def test_readme_worked_example_matches_a_real_run(tmp_path, monkeypatch):
