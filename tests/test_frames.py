@@ -19,7 +19,7 @@ import jsonschema
 import numpy as np
 
 from analyzer import errorcount, pipeline, capture
-from analyzer.report import json_report
+from analyzer import report
 from analyzer.synth import SynthParams, synthesize
 
 DATA = Path(__file__).parent / "data"
@@ -53,8 +53,8 @@ def test_synth_framed_round_trip(tmp_path):
             assert b.frames.known_symbols > 0.9 * b.n_symbols
             # data-aided Eb/N0 against the setting, within 1 dB (the interval is about +-0.3 dB here)
             assert abs(b.stats.ebn0_db - 16.0) < 1.0
-        rep = json_report.build_report(out)
-        jsonschema.validate(rep, json.loads(json_report.SCHEMA_PATH.read_text()))
+        rep = report.build_report(out)
+        jsonschema.validate(rep, json.loads(report.SCHEMA_PATH.read_text()))
         assert rep["summary"]["frames"]["valid"] == rep["summary"]["frames"]["found"]
         assert rep["bursts"][0]["frames"]["frames"][0]["fcs_valid"]
 

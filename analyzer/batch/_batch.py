@@ -11,9 +11,7 @@ spec, else 0.
 
 from __future__ import annotations
 
-import csv
 import glob
-import io
 import os
 import warnings
 from concurrent.futures import ProcessPoolExecutor
@@ -22,7 +20,7 @@ from pathlib import Path
 
 from ..errors import CaptureWarning, InputError
 
-__all__ = ["BatchOptions", "find_captures", "analyze_one", "run_batch", "summary_csv", "summary_html"]
+__all__ = ["BatchOptions", "find_captures", "analyze_one", "run_batch", "summary_report"]
 
 _CAPTURE_SUFFIXES = (".sigmf-meta", ".wav", ".flac")
 
@@ -72,11 +70,11 @@ def find_captures(items: list[str]) -> list[Path]:
 
 def _report_names(paths: list[Path]) -> list[str]:
     """Base names of each capture's reports, made unique within the batch."""
-    from ..cli._commands import _base_name
+    from ..report import base_name
 
     names, used = [], set()
     for p in paths:
-        base = _base_name(p, None)
+        base = base_name(p)
         name, k = base, 2
         while name in used:
             name, k = f"{base}-{k}", k + 1
@@ -93,10 +91,9 @@ def analyze_one(path: str, name: str, opts: BatchOptions) -> dict:
     """
     import numpy as np
 
-    from ..cli._commands import _analysis_reports, _inputs, link_options, report_paths, write_all
+    from .. import report as rp
     from ..pipeline import analyze
-    from ..report import style
-    from ..report.files import check_output
+    from ..spec import link_options
 
     entry = {"path": str(path), "name": name, "verdict": None, "ebn0_db": None, "ber": None, "errors": None,
              "bits": None, "n_bursts": None, "failed_checks": [], "reports": {}, "warnings": [], "error": None}
@@ -106,24 +103,23 @@ def analyze_one(path: str, name: str, opts: BatchOptions) -> dict:
             spec, tones, baud, reference = link_options(Path(opts.spec_path) if opts.spec_path else None,
                                                         opts.tones, opts.baud, opts.reference)
             capture = Path(path)
-            paths = report_paths(capture, Path(opts.out), name, None, None, formats=tuple(opts.formats))
-            inputs = _inputs(capture) + ([Path(opts.spec_path)] if opts.spec_path else [])
+            paths = rp.report_paths(capture, Path(opts.out), name, None, None, formats=tuple(opts.formats))
+            inputs = rp.input_files(capture) + ([Path(opts.spec_path)] if opts.spec_path else [])
             for p in paths.values():
-                check_output(p, inputs, opts.overwrite)
+                rp.check_output(p, inputs, opts.overwrite)
             with np.errstate(all="ignore"):
                 # one capture per worker already keeps the cores busy: no workers within
                 result = analyze(capture, tones_hz=tones, symbol_rate_hz=baud, sample_rate_hz=opts.rate,
                                  fmt=opts.fmt, reference=reference, decision=opts.decision, strict=opts.strict,
                                  block=opts.block, workers=1)
-                report, items = _analysis_reports(result, spec, paths, 1, None)
-            write_all(items)
+                report, items = rp.analysis_files(result, spec, paths, 1, None)
+            rp.write_all(items)
         s = report["summary"]
         ber = s["ber"]
         entry.update(verdict=report["verdict"], ebn0_db=s["ebn0_db"], n_bursts=s["n_bursts"],
                      ber=None if ber is None else ber["rate"], errors=None if ber is None else ber["errors"],
                      bits=None if ber is None else ber["bits"],
-                     failed_checks=[style.check_name(c["name"]) for c in style.ordered_checks(report["checks"])
-                                    if not c["pass"]],
+                     failed_checks=rp.failed_check_names(report["checks"]),
                      reports={k: str(v) for k, v in paths.items()},
                      warnings=list(report["warnings"]))
     except InputError as exc:
@@ -172,37 +168,6 @@ def summary_report(entries: list[dict], opts: BatchOptions) -> dict:
 
 SCHEMA_ID = "https://tonepair.invalid/schema/batch-1.json"
 
-CSV_COLUMNS = ("path", "verdict", "failed_checks", "ebn0_db", "ber", "errors", "bits", "n_bursts", "json", "html",
-               "error")
-
-
-def summary_csv(summary: dict) -> str:
-    """One row per capture."""
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(CSV_COLUMNS)
-    for e in summary["captures"]:
-        row = {**e, "json": e["reports"].get("json", ""), "html": e["reports"].get("html", ""),
-               "failed_checks": "; ".join(e.get("failed_checks") or [])}
-        w.writerow(["" if row[c] is None else row[c] for c in CSV_COLUMNS])
-    return buf.getvalue()
-
-
-def summary_html(summary: dict, html_path: Path) -> str:
-    """An HTML table: pass/fail per capture, links to each capture's own reports."""
-    from ..report.html import env as html_env, generated_at
-
-    env = html_env()
-    here = Path(html_path).resolve().parent
-
-    def link(p):
-        return os.path.relpath(Path(p).resolve(), here) if p else None
-
-    rows = [{**e, "html_link": link(e["reports"].get("html")), "json_link": link(e["reports"].get("json")),
-             "pdf_link": link(e["reports"].get("pdf"))}
-            for e in summary["captures"]]
-    return env.get_template("batch.html.j2").render(s=summary, rows=rows, generated=generated_at())
-
 
 def exit_code(entries: list[dict]) -> int:
     """2 if any capture could not be analysed, else 1 if any failed its spec, else 0."""
@@ -218,59 +183,27 @@ def run_batch(items: list[str], opts: BatchOptions, name: str = "batch", workers
     asks; the CSV always, beside the JSON or in OUT); return the exit code and the summary."""
     import sys
 
-    from ..cli._commands import link_options, output_paths, write_all
-    from ..report import style
-    from ..report.files import check_output
-    from ..report.json_report import dumps
+    from .. import report as rp
+    from ..spec import link_options
 
     link_options(Path(opts.spec_path) if opts.spec_path else None, opts.tones, opts.baud, opts.reference)
     paths = find_captures(items)
     out = Path(opts.out)
-    spaths = output_paths(out, name, tuple(opts.formats), summary_paths)
+    spaths = rp.output_paths(out, name, tuple(opts.formats), summary_paths)
     spaths["csv"] = out / f"{name}.csv"
-    inputs = [q for p in paths for q in _expand_inputs(p)]
+    inputs = [q for p in paths for q in rp.input_files(p)]
     for p in spaths.values():
-        check_output(p, inputs, opts.overwrite)
+        rp.check_output(p, inputs, opts.overwrite)
     names = _report_names(paths)
     if cluster:
         entries = _run_cluster(paths, names, opts, cluster)
     else:
         entries = _run_local(paths, names, opts, workers or os.cpu_count() or 1)
     summary = summary_report(entries, opts)
-    files = []
-    if "json" in spaths:
-        files.append((spaths["json"], dumps(summary)))
-    files.append((spaths["csv"], summary_csv(summary)))
-    if "html" in spaths:
-        files.append((spaths["html"], summary_html(summary, spaths["html"])))
-    if "pdf" in spaths:
-        from ..report.pdf import render_batch_pdf
-
-        files.append((spaths["pdf"], render_batch_pdf(summary)))
-    written = write_all(files)
+    written = rp.write_all(rp.batch_files(summary, spaths))
     for e in entries:
         if e["error"]:
             print(f"error: {e['error']}", file=sys.stderr)
     if not quiet:
-        width = max([len(e["path"]) for e in entries] + [7])
-        for e in entries:
-            word = style.VERDICT_WORDS.get(e["verdict"], str(e["verdict"]))
-            if e["error"]:
-                line = e["error"]
-            else:
-                line = f"Eb/N0 {style.fixed(e['ebn0_db'], 2, 'dB')}" if e["ebn0_db"] is not None else "no Eb/N0"
-                if e["failed_checks"]:
-                    line += "; failed: " + ", ".join(e["failed_checks"])
-            print(f"{word:<12} {e['path']:<{width}}  {line}")
-        c = summary["counts"]
-        print(f"{len(entries)} captures: {c['pass']} pass, {c['fail']} fail, {c['not-judged']} not judged, "
-              f"{c['error']} not analysed")
-        for p in written:
-            print(f"wrote {p}")
+        rp.print_batch_summary(summary, written)
     return exit_code(entries), summary
-
-
-def _expand_inputs(p: Path) -> list[Path]:
-    from ..cli._commands import _inputs
-
-    return _inputs(p)

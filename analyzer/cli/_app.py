@@ -372,7 +372,7 @@ def batch(
     Exit code 2 if any capture could not be analysed, else 1 if any failed its spec, else 0.
     """
     from ..batch import BatchOptions, run_batch
-    from ._commands import parse_formats
+    from ..report import parse_formats
 
     try:
         overrides = {"json": json_path, "html": html_path, "pdf": pdf_path}

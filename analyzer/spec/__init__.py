@@ -1,5 +1,7 @@
 """Spec files (TOML ``[link]`` and ``[limits]``) and the judgement of a result against them."""
 
-from ._spec import judge, load_spec, parse_spec
+from ._judge import BerReading, BurstReading, Readings, judge, readings
+from ._parse import LIMIT_UNITS, Limits, Link, Spec, link_options, load_spec, normal_reference, parse_spec
 
-__all__ = ["judge", "load_spec", "parse_spec"]
+__all__ = ["BerReading", "BurstReading", "Readings", "judge", "readings", "LIMIT_UNITS", "Limits", "Link", "Spec",
+           "link_options", "load_spec", "normal_reference", "parse_spec"]

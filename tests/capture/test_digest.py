@@ -19,7 +19,7 @@ from sigmf import hashing
 
 from analyzer import capture, pipeline
 from analyzer.errors import InputError
-from analyzer.report import json_report
+from analyzer import report
 from analyzer.synth import SynthParams, synthesize
 
 HINTS = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
@@ -90,7 +90,7 @@ def _checksum_warnings(result):
 @pytest.mark.parametrize("datatype", ["cf32_le", "ci16_le"])
 def test_checksum_checked_in_the_pass_detects_any_changed_byte(tmp_path, datatype):
     good = _write(tmp_path, "good", datatype)
-    ref = json_report.build_report(pipeline.analyze(good, **HINTS))
+    ref = report.build_report(pipeline.analyze(good, **HINTS))
     assert len(ref["bursts"]) == 2 and not [w for w in ref["warnings"] if MISMATCH in w]
     for block in (pipeline.QUANTUM, None):
         r = pipeline.analyze(good, block=block, **HINTS)
@@ -103,7 +103,7 @@ def test_checksum_checked_in_the_pass_detects_any_changed_byte(tmp_path, datatyp
             with pytest.raises(InputError, match=MISMATCH):
                 pipeline.analyze(bad, block=block, strict=True, **HINTS)
         if flip != "sample":                           # bytes the analysis does not use: same report
-            rep = json_report.build_report(pipeline.analyze(bad, **HINTS))
+            rep = report.build_report(pipeline.analyze(bad, **HINTS))
             rep["warnings"] = [w for w in rep["warnings"] if MISMATCH not in w]
             assert _numbers(rep) == _numbers(ref)       # tolerance: exactly equal
 
@@ -146,7 +146,7 @@ from analyzer import pipeline
 from analyzer.survey import _pass as survey
 from analyzer.capture import _digest as digest
 from analyzer.errors import InputError
-from analyzer.report import json_report
+from analyzer import report
 survey.PARALLEL_MIN_SAMPLES = 1           # the pass shared by workers even for this short capture
 digest.BLOCK_BYTES = 4096                 # the parent hashes in many steps while they run
 steps = []
@@ -166,7 +166,7 @@ for name in sys.argv[1:3]:
                 strict = "analysed"
             except InputError as exc:
                 strict = str(exc)
-            out[f"{name} {workers} {block}"] = {"report": json_report.build_report(r), "strict": strict}
+            out[f"{name} {workers} {block}"] = {"report": report.build_report(r), "strict": strict}
 json.dump({"runs": out, "steps": len(steps)}, open(sys.argv[3], "w"))
 """
 

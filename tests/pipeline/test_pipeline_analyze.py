@@ -24,7 +24,7 @@ from scipy import stats
 
 from analyzer import pipeline, capture
 from analyzer.capture import ArrayCapture, open_capture
-from analyzer.report import json_report
+from analyzer import report
 from analyzer.synth import SynthParams, synthesize
 
 FS, RS = 80000.0, 5000.0
@@ -119,8 +119,8 @@ def test_report_validates_against_schema(tmp_path):
 
     params = SynthParams(continuous_phase=False, ebn0_db=9.0, symbols_per_burst=2000, n_bursts=2, seed=3)
     _, out = _analyse(tmp_path, params)
-    rep = json.loads(json_report.dumps(json_report.build_report(out)))
-    schema = json.loads(json_report.SCHEMA_PATH.read_text())
+    rep = json.loads(report.dumps(report.build_report(out)))
+    schema = json.loads(report.SCHEMA_PATH.read_text())
     jsonschema.Draft202012Validator.check_schema(schema)
     jsonschema.validate(rep, schema)
     # Two bursts, each reported with its own symbols (generator: 2 x 2000); pooled counts add up.

@@ -83,10 +83,10 @@ import json, os, sys
 from analyzer import pipeline
 from analyzer.pipeline import _regions   # private: the per-region step spied on (no public door)
 from analyzer.errors import warn
-from analyzer.report import json_report
+from analyzer import report
 meta, out = sys.argv[1], sys.argv[2]
 kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
-one = json_report.build_report(pipeline.analyze(meta, workers=1, block=8192, **kw))
+one = report.build_report(pipeline.analyze(meta, workers=1, block=8192, **kw))
 real = _regions.region_bursts
 def spy(*args):
     warn(f"pid {os.getpid()}")                  # carried back with the region's warnings
@@ -106,7 +106,7 @@ def merge_spy(parts):
 survey._stretch_task, survey._merge = stretch_spy, merge_spy
 two = pipeline.analyze(meta, workers=2, block=8192, **kw)
 pids = sorted({m for m in two.warnings if m.startswith("pid ")})
-rep = json_report.build_report(two)
+rep = report.build_report(two)
 rep["warnings"] = [m for m in rep["warnings"] if not m.startswith("pid ")]
 json.dump({"parent": os.getpid(), "pids": pids, "survey_pids": seen, "one": one, "two": rep}, open(out, "w"))
 """

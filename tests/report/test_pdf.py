@@ -79,7 +79,8 @@ def _overlap(a, b, tol=0.5):
 
 
 def _layout_problems(pages):
-    from analyzer.report.pdf import A4, FOOTER, FOOTER_TEXT
+    # private: the page geometry has no public door (the public render_pdf returns the finished bytes)
+    from analyzer.report._pdf import A4, FOOTER, FOOTER_TEXT
 
     problems = []
     for n, fig in enumerate(pages, 1):
@@ -113,7 +114,8 @@ def analysed(tmp_path_factory):
     """One real analysis of a two-burst capture, its report judged against a spec, and its figures."""
     from analyzer import capture
     from analyzer.pipeline import analyze
-    from analyzer.report import figures, json_report
+    from analyzer.report import build_report
+    from analyzer.report import _figures as figures   # private: drawn figures have no public door
     from analyzer.spec import judge, parse_spec
     from analyzer.synth import SynthParams, synthesize
 
@@ -123,9 +125,9 @@ def analysed(tmp_path_factory):
     result = analyze(cap, tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, workers=1)
     spec = parse_spec(SPEC + "max_tone_imbalance_db = 0.0001\nmax_implementation_loss_db = 0.5\n"
                       "tone_error_hz = 0.001\nsymbol_rate_error_ppm = 0.01\nmax_tone_correlation = 0.0\n")
-    base = json_report.build_report(result)
-    checks, verdict = judge(base, spec)
-    judged = json_report.build_report(result, checks, verdict)
+    base = build_report(result)
+    checks, verdict = judge(result, spec)
+    judged = build_report(result, checks, verdict)
     return base, judged, figures.render_all(result, workers=1)
 
 
@@ -134,7 +136,8 @@ def analysed(tmp_path_factory):
 def test_pdf_pages_have_no_overlapping_text(analysed, n_bursts, judged):
     import copy
 
-    from analyzer.report.pdf import analysis_sheets
+    # private: the pages before they are written have no public door (render_pdf returns bytes)
+    from analyzer.report._pdf import analysis_sheets
 
     base, with_spec, pics = analysed
     report = copy.deepcopy(with_spec if judged else base)
@@ -165,7 +168,7 @@ _FORKED_FIGURES = r"""
 import sys
 from analyzer import capture
 from analyzer.pipeline import analyze
-from analyzer.report import figures
+from analyzer.report import _figures as figures    # private: the forked drawing has no other door
 from analyzer.synth import SynthParams, synthesize
 
 res = synthesize(SynthParams(ebn0_db=9.0, n_bursts=2, symbols_per_burst=400, seed=5))
@@ -205,7 +208,8 @@ def test_a_long_report_raises_no_open_figures_warning(analysed):
 
     import matplotlib.pyplot as plt
 
-    from analyzer.report.pdf import analysis_sheets
+    # private: the pages before they are written have no public door (render_pdf returns bytes)
+    from analyzer.report._pdf import analysis_sheets
 
     base, _judged, pics = analysed
     report = copy.deepcopy(base)

@@ -35,8 +35,8 @@ def test_burst_numbers_are_consecutive_in_every_view(run_cli, make_capture, tmp_
 def _validate(rep):
     import jsonschema
 
-    from analyzer.report import json_report
-    jsonschema.validate(rep, json.loads(json_report.SCHEMA_PATH.read_text()))   # reference: jsonschema
+    from analyzer import report
+    jsonschema.validate(rep, json.loads(report.SCHEMA_PATH.read_text()))   # reference: jsonschema
 
 
 @pytest.mark.parametrize("pattern,symbols,reference,reason", [

@@ -17,7 +17,9 @@ import pytest
 from typer.testing import CliRunner
 
 from analyzer.cli import app
-from analyzer.report.terminal import MAX_BURST_ROWS, Out, print_summary
+from analyzer.report import print_summary
+# private: the output device (tty, width) and the row cap have no public door
+from analyzer.report._terminal import MAX_BURST_ROWS, Out
 
 ROOT = Path(__file__).resolve().parents[2]
 TIGHT = """

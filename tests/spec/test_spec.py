@@ -12,7 +12,7 @@ import pytest
 from scipy import stats
 
 from analyzer.errors import InputError
-from analyzer.spec import judge, parse_spec
+from analyzer.spec import BerReading, Readings, judge, parse_spec
 
 SPEC = """
 [link]
@@ -95,19 +95,18 @@ def test_bad_spec_names_key(text, key):
     assert exc.value.path == "x.toml"
 
 
-def _report(ber_errors, bits, loss=None, loss_ci=(None, None)):
+def _readings(ber_errors, bits, loss=None, loss_ci=(None, None), ber=True):
     lo, hi = stats.binomtest(ber_errors, bits).proportion_ci(0.95, method="exact")
-    return {"options": {"tones_hz": [-2500.0, 2500.0], "symbol_rate_hz": 5000.0},
-            "bursts": [], "summary": {"ebn0_db": 9.0, "ebn0_db_ci95": [8.5, 9.5],
-                                      "ber": {"errors": ber_errors, "bits": bits, "rate": ber_errors / bits,
-                                              "ci95": [lo, hi]},
-                                      "implementation_loss_db": loss, "implementation_loss_db_ci95": list(loss_ci)}}
+    return Readings(tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, bursts=(), ebn0_db=9.0,
+                    ebn0_db_ci95=(8.5, 9.5),
+                    ber=BerReading(errors=ber_errors, bits=bits, rate=ber_errors / bits, ci95=(lo, hi)) if ber else None,
+                    ber_reason=None, implementation_loss_db=loss, implementation_loss_db_ci95=tuple(loss_ci))
 
 
 def test_marginal_when_limit_inside_interval():
     # 5 errors in 1000 bits: Clopper-Pearson 95% interval (scipy.stats.binomtest) is
     # about 0.0016 ... 0.0116, so a 1e-2 limit lies inside it: pass but marginal.
-    checks, verdict = judge(_report(5, 1000), parse_spec("[limits]\nmax_ber = 1e-2\nmin_ebn0_db = 9.2\n"))
+    checks, verdict = judge(_readings(5, 1000), parse_spec("[limits]\nmax_ber = 1e-2\nmin_ebn0_db = 9.2\n"))
     ber, eb = checks
     assert ber["pass"] and ber["marginal"] and "95%" in ber["note"]
     assert ber["measured"] == pytest.approx(0.005, rel=1e-12)
@@ -117,8 +116,43 @@ def test_marginal_when_limit_inside_interval():
 
 
 def test_unmeasurable_quantity_fails():
-    rep = _report(1, 1000)
-    rep["summary"]["ber"] = None            # no reference pattern -> no BER
+    rep = _readings(1, 1000, ber=False)      # no reference pattern -> no BER
     checks, verdict = judge(rep, parse_spec("[limits]\nmax_ber = 1e-2\n"))
     assert checks[0]["pass"] is False and checks[0]["measured"] is None
     assert verdict == "fail"
+
+
+def test_judged_numbers_are_the_reported_numbers(make_capture):
+    # judge reads the result objects; reference: the JSON report of the same result (the record a
+    # user reads, schema-checked elsewhere) -- every reading equals the reported number exactly
+    from analyzer.pipeline import analyze
+    from analyzer.report import build_report
+    from analyzer.spec import readings
+
+    cap = make_capture(ebn0_db=8.0, n_bursts=2, symbols_per_burst=800, gap_samples=6000.0, centre_offset_hz=90.0,
+                       tone_amplitudes=(1.0, 0.9), seed=12)
+    result = analyze(cap, tones_hz=(-2500.0, 2500.0), symbol_rate_hz=5000.0, workers=1)
+    rep = build_report(result)
+    r = readings(result)
+    assert len(r.bursts) == len(rep["bursts"]) == 2
+    for b, d in zip(r.bursts, rep["bursts"]):
+        assert list(b.tones_hz) == d["tones_hz"] and [list(c) for c in b.tones_hz_ci95] == d["tones_hz_ci95"]
+        assert b.symbol_rate_hz == d["symbol_rate_hz"]
+        assert b.tone_imbalance_db == d["tone_imbalance_db"]
+        assert list(b.tone_imbalance_db_ci95) == d["tone_imbalance_db_ci95"]
+        assert b.tone_correlation == d["tone_correlation"]
+        assert list(b.tone_correlation_ci95) == d["tone_correlation_ci95"]
+    s = rep["summary"]
+    assert r.ebn0_db == s["ebn0_db"] and list(r.ebn0_db_ci95) == s["ebn0_db_ci95"]
+    assert (r.ber.errors, r.ber.bits, r.ber.rate, list(r.ber.ci95)) == (
+        s["ber"]["errors"], s["ber"]["bits"], s["ber"]["rate"], s["ber"]["ci95"])
+    assert r.implementation_loss_db == s["implementation_loss_db"]
+    assert list(r.implementation_loss_db_ci95) == s["implementation_loss_db_ci95"]
+    assert list(r.tones_hz) == rep["options"]["tones_hz"] and r.symbol_rate_hz == rep["options"]["symbol_rate_hz"]
+    # and the verdict on the worst tone error the JSON shows: a maximum passes at its limit and fails
+    # 0.01 Hz below it (the rule stated with the spec)
+    worst = max(abs(t - n) for d in rep["bursts"] for t, n in zip(d["tones_hz"], (-2500.0, 2500.0)))
+    assert worst > 30.0                                          # the 90 Hz offset is seen
+    for limit, verdict in ((worst - 0.01, "fail"), (worst, "pass")):
+        checks, got = judge(result, parse_spec(f"[limits]\ntone_error_hz = {limit!r}\n"))
+        assert got == verdict and checks[0]["measured"] == worst

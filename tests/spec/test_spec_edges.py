@@ -12,19 +12,19 @@ import json
 
 import pytest
 
-from analyzer.spec import judge, parse_spec
+from analyzer.spec import BurstReading, Readings, judge, parse_spec
 
 
 def _burst(tones, tone_ci, rate, imb, imb_ci, rho, rho_ci):
-    return {"tones_hz": list(tones), "tones_hz_ci95": [list(c) for c in tone_ci], "symbol_rate_hz": rate,
-            "tone_imbalance_db": imb, "tone_imbalance_db_ci95": list(imb_ci), "tone_correlation": rho,
-            "tone_correlation_ci95": list(rho_ci)}
+    return BurstReading(tones_hz=tuple(tones), tones_hz_ci95=tuple(tuple(c) for c in tone_ci), symbol_rate_hz=rate,
+                        tone_imbalance_db=imb, tone_imbalance_db_ci95=tuple(imb_ci), tone_correlation=rho,
+                        tone_correlation_ci95=tuple(rho_ci))
 
 
-def _report(bursts, ebn0=9.0, ebn0_ci=(8.5, 9.5)):
-    return {"options": {"tones_hz": [-2500.0, 2500.0], "symbol_rate_hz": 5000.0}, "bursts": bursts,
-            "summary": {"ebn0_db": ebn0, "ebn0_db_ci95": list(ebn0_ci), "ber": None, "ber_reason": None,
-                        "implementation_loss_db": None, "implementation_loss_db_ci95": [None, None]}}
+def _report(bursts, ebn0=9.0, ebn0_ci=(8.5, 9.5), nominal=True):
+    return Readings(tones_hz=(-2500.0, 2500.0) if nominal else None, symbol_rate_hz=5000.0 if nominal else None,
+                    bursts=tuple(bursts), ebn0_db=ebn0, ebn0_db_ci95=tuple(ebn0_ci), ber=None, ber_reason=None,
+                    implementation_loss_db=None, implementation_loss_db_ci95=(None, None))
 
 
 B0 = _burst((-2240.0, 2510.0), ((-2250.0, -2230.0), (2490.0, 2530.0)), 5001.0, -1.4, (-1.9, -0.9), 0.02, (0.01, 0.03))
@@ -83,8 +83,7 @@ def test_minimum_equal_to_its_limit_passes():
 
 
 def test_checks_that_cannot_be_measured_fail_and_say_why():
-    rep = _report([B0])
-    rep["options"] = {"tones_hz": None, "symbol_rate_hz": None}
+    rep = _report([B0], nominal=False)
     checks, verdict = judge(rep, parse_spec("[limits]\ntone_error_hz = 300.0\nsymbol_rate_error_ppm = 100.0\n"
                                             "max_ber = 1e-3\n"))
     notes = {c["name"]: c["note"] for c in checks}

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from analyzer import pipeline, capture
-from analyzer.report import json_report
+from analyzer import report
 from analyzer.synth import SynthParams, synthesize
 
 
@@ -43,8 +43,8 @@ def dc_capture(tmp_path_factory):
 @pytest.mark.parametrize("hints", [True, False])
 def test_tiny_blocks_give_the_same_report_as_whole_file(dc_capture, hints):
     kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000) if hints else {}
-    whole = json_report.build_report(pipeline.analyze(dc_capture, **kw))
-    tiny = json_report.build_report(pipeline.analyze(dc_capture, block=pipeline.QUANTUM, **kw))
+    whole = report.build_report(pipeline.analyze(dc_capture, **kw))
+    tiny = report.build_report(pipeline.analyze(dc_capture, block=pipeline.QUANTUM, **kw))
     assert pipeline.QUANTUM < whole["capture"]["samples"] / 8          # the tiny run really is blockwise
     assert len(whole["bursts"]) == 3
     # bursts straddle block edges: some start and stop lie in different blocks
@@ -60,7 +60,7 @@ def test_tiny_blocks_give_the_same_report_as_whole_file(dc_capture, hints):
 def test_dc_offset_matches_numpy_mean_of_whole_file(dc_capture):
     data = np.fromfile(str(dc_capture).replace(".sigmf-meta", ".sigmf-data"), dtype=np.complex64)
     ref = np.mean(data.astype(np.complex128))                            # reference: numpy over the whole file
-    rep = json_report.build_report(pipeline.analyze(dc_capture, tones_hz=(-2500, 2500), symbol_rate_hz=5000,
+    rep = report.build_report(pipeline.analyze(dc_capture, tones_hz=(-2500, 2500), symbol_rate_hz=5000,
                                                     block=pipeline.QUANTUM))
     i, q = rep["capture"]["dc_offset_iq"]
     # tolerance 1e-9 of full scale: with the band known, each frame's sum is its 0 Hz bin from a

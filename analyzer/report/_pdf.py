@@ -3,7 +3,7 @@
 Every page is an A4 matplotlib figure filled from the top by a small layout
 cursor (:class:`Sheet`): headings, wrapped notes, tables drawn as text in a
 grid, and the report's figures placed as the very pictures the HTML embeds
-(:class:`~analyzer.report.figures.Picture`, drawn once).  An element that does
+(:class:`~analyzer.report._figures.Picture`, drawn once).  An element that does
 not fit on the page starts the next one, so nothing runs over the footer.
 Every number comes from the JSON-ready report dict, so the PDF, HTML and JSON
 agree.  Text is embedded with TrueType fonts so it can be searched and
@@ -23,8 +23,8 @@ import matplotlib.pyplot as plt  # noqa: E402
 from matplotlib.backends.backend_pdf import PdfPages  # noqa: E402
 from matplotlib.patches import Rectangle  # noqa: E402
 
-from . import figures, style  # noqa: E402
-from .style import HEAD, INK, MUTED, RULE  # noqa: E402
+from . import _figures as figures, _style as style  # noqa: E402
+from ._style import HEAD, INK, MUTED, RULE  # noqa: E402
 
 A4 = (8.27, 11.69)
 MARGIN = 0.6          # inches, left/right/top

@@ -1,4 +1,4 @@
-"""The terminal summary and progress bar, in the house style (:mod:`analyzer.report.style`).
+"""The terminal summary and progress bar, in the house style (:mod:`analyzer.report._style`).
 
 The summary leads with the verdict and the checks that fail or are marginal,
 then the pooled result, then the bursts (at most :data:`MAX_BURST_ROWS` rows).
@@ -14,7 +14,7 @@ import sys
 import textwrap
 import time
 
-from . import style
+from . import _style as style
 
 #: Rows of the bursts table on the terminal (the JSON and HTML list every burst).
 MAX_BURST_ROWS = 12
@@ -154,6 +154,39 @@ def print_summary(report: dict, stream=None, written: list[str] | None = None, o
         o.line()
         for path in written:
             o.line(f"wrote {path}")
+
+
+
+def print_sweep_summary(sweep: dict, written: list | None = None, stream=None) -> None:
+    """The fitted loss of a level sweep in one line (and the files written)."""
+    stream = stream or sys.stdout
+    ci = sweep["implementation_loss_db_ci95"]
+    print(f"implementation loss {style.fixed(sweep['implementation_loss_db'], 2, 'dB')} "
+          f"(95% {style.fixed(ci[0])} … {style.fixed(ci[1])} dB); Eb/N0 for BER {style.sci(sweep['target_ber'])}: "
+          f"{style.fixed(sweep['ebn0_at_target_db'], 2, 'dB')}", file=stream)
+    for p in written or []:
+        print(f"wrote {p}", file=stream)
+
+
+def print_batch_summary(summary: dict, written: list | None = None, stream=None) -> None:
+    """One line per capture of a batch (verdict, path, Eb/N0 or its problem), the counts, the files written."""
+    stream = stream or sys.stdout
+    entries = summary["captures"]
+    width = max([len(e["path"]) for e in entries] + [7])
+    for e in entries:
+        word = style.VERDICT_WORDS.get(e["verdict"], str(e["verdict"]))
+        if e["error"]:
+            line = e["error"]
+        else:
+            line = f"Eb/N0 {style.fixed(e['ebn0_db'], 2, 'dB')}" if e["ebn0_db"] is not None else "no Eb/N0"
+            if e["failed_checks"]:
+                line += "; failed: " + ", ".join(e["failed_checks"])
+        print(f"{word:<12} {e['path']:<{width}}  {line}", file=stream)
+    c = summary["counts"]
+    print(f"{len(entries)} captures: {c['pass']} pass, {c['fail']} fail, {c['not-judged']} not judged, "
+          f"{c['error']} not analysed", file=stream)
+    for p in written or []:
+        print(f"wrote {p}", file=stream)
 
 
 class Progress:

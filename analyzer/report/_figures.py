@@ -22,7 +22,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 
 from .. import theory  # noqa: E402
-from .style import INK, MUTED, RULE as GRID  # noqa: E402
+from ._style import INK, MUTED, RULE as GRID  # noqa: E402
 
 # our own palette: slate for data, amber for tone 0, teal for tone 1, brick for theory
 TONE_COLOURS = ("#c9821a", "#1f8a86")
@@ -270,7 +270,7 @@ def waterfall(sweep: dict):
     """BER against Eb/N0 for a sweep: theory, the measured points with both intervals,
     and the theory curve shifted by the fitted implementation loss.
 
-    ``sweep`` is the JSON-ready sweep report (see :func:`analyzer.commands.sweep_report`).
+    ``sweep`` is the JSON-ready sweep report (see :func:`analyzer.report.sweep_report`).
     """
     fig, ax = _figure(6.4, 4.2)
     pts = sweep["points"]

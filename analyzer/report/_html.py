@@ -1,16 +1,18 @@
-"""Self-contained HTML report (Jinja2 template, figures embedded as PNG).
+"""Self-contained HTML pages of an analysis, a sweep and a batch (one Jinja2 environment, figures embedded as PNG).
 
 The words, colours and number formats are the house style of
-:mod:`analyzer.report.style`, shared with the terminal and the PDF.
+:mod:`analyzer.report._style`, shared with the terminal and the PDF.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
+import os
+from pathlib import Path
 
 from jinja2 import Environment, PackageLoader, select_autoescape
 
-from . import style
+from . import _style as style
 
 
 def env() -> Environment:
@@ -23,8 +25,6 @@ def env() -> Environment:
     e.globals.update(style=style, STATES=style.STATES, VERDICT_WORDS=style.VERDICT_WORDS)
     return e
 
-
-_env = env
 
 
 def fmt_num(v, digits: int = 2, unit: str = "") -> str:
@@ -49,10 +49,29 @@ def generated_at() -> str:
 
 def render_html(result, report: dict, pics: dict | None = None) -> str:
     """The report page as one HTML string; ``pics`` are the figures already drawn (drawn here if not given)."""
-    from . import figures
+    from ._figures import render_all
 
-    pics = figures.render_all(result) if pics is None else pics
+    pics = render_all(result) if pics is None else pics
     figs = {k: p.base64() for k, p in pics.items()}
     tmpl = env().get_template("report.html.j2")
     return tmpl.render(r=report, figs=figs, generated=generated_at(),
                        checks=style.ordered_checks(report.get("checks") or []))
+
+
+def render_sweep_html(sweep: dict, pic) -> str:
+    """The sweep page: the fitted loss, its points and the waterfall figure ``pic`` (a drawn Picture)."""
+    return env().get_template("sweep.html.j2").render(r=sweep, fig=pic.base64(), generated=generated_at())
+
+
+def render_batch_html(summary: dict, html_path: Path) -> str:
+    """The batch page: pass/fail per capture, links (relative to ``html_path``) to each capture's own reports."""
+    here = Path(html_path).resolve().parent
+    rows = [{**e, "html_link": _link(e["reports"].get("html"), here),
+             "json_link": _link(e["reports"].get("json"), here),
+             "pdf_link": _link(e["reports"].get("pdf"), here)}
+            for e in summary["captures"]]
+    return env().get_template("batch.html.j2").render(s=summary, rows=rows, generated=generated_at())
+
+
+def _link(path, here: Path) -> str | None:
+    return os.path.relpath(Path(path).resolve(), here) if path else None

@@ -149,3 +149,8 @@ def loss_text(value, ci, ber: dict | None, what: str = "bit") -> tuple[str, str]
         return DASH, ""
     lo, hi = ci if ci else (None, None)
     return fixed(value, 2, "dB"), f"{fixed(lo)} … {fixed(hi)} dB"
+
+
+def failed_check_names(checks: list[dict]) -> list[str]:
+    """The names (in words) of the checks that failed, in the order the reports list them."""
+    return [check_name(c["name"]) for c in ordered_checks(checks) if not c["pass"]]
