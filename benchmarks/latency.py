@@ -125,7 +125,7 @@ def import_breakdown(cmd: list[str], top: int) -> None:
     print(f"  {'(the rest)':<28} {rest / 1e3:>7.1f}")
     heavy = ("scipy.stats", "scipy.signal", "scipy.optimize", "matplotlib", "jinja2", "pypdf", "sigmf",
              "jsonschema", "soundfile")
-    for stmt in ("import analyzer", "import analyzer.pipeline", "import analyzer.commands"):
+    for stmt in ("import analyzer", "import analyzer.pipeline", "import analyzer.cli._commands"):
         rows = import_times([sys.executable, "-c", stmt])
         mods = {r[3] for r in rows}
         cum = max((r[1] for r in rows if r[3] == stmt.split()[1]), default=0)

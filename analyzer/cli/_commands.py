@@ -1,6 +1,6 @@
-"""What each command does, between the option parser (cli.py) and the stages.
+"""What each command does, between the option parser (`_app.py`) and the stages.
 
-Kept apart from ``cli.py`` so the command line only parses, and usable from
+Kept apart from ``_app.py`` so the command line only parses, and usable from
 Python for scripted runs.
 """
 
