@@ -143,3 +143,28 @@ def test_pcm_clipping_warns(tmp_path):
         p = capture.write_audio(tmp_path / "c.wav", np.array([1.5, -0.5, -3.0]), 8000, subtype="PCM_16")
     got, _ = sf.read(p)                                                  # reference: soundfile
     assert np.max(np.abs(got - np.array([32767, -16384, -32768]) / 32768)) <= 1 / 32768
+
+
+def test_a_folder_that_cannot_be_made_is_an_input_error_and_leaves_nothing(tmp_path):
+    # a folder below a plain file cannot exist (POSIX: ENOTDIR); the error names the folder, not a traceback
+    (tmp_path / "plain").write_text("x")
+    with pytest.raises(InputError) as exc:
+        capture.write_raw(tmp_path / "plain" / "sub" / "x.cf32", np.ones(8, complex))
+    assert "cannot create the output folder" in exc.value.problem
+    assert exc.value.path == str(tmp_path / "plain" / "sub")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["plain"]          # no temporary file left
+
+
+def test_a_failed_fill_leaves_neither_target_nor_temporary_file(tmp_path):
+    # atomic replace (POSIX rename): the old file stays whole when writing the new one fails
+    target = tmp_path / "keep.bin"
+    target.write_bytes(b"old")
+
+    def fail(tmp):
+        tmp.write_bytes(b"half")
+        raise RuntimeError("disk full")
+
+    with pytest.raises(RuntimeError):
+        capture.replace_atomically(target, fail)
+    assert target.read_bytes() == b"old"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["keep.bin"]
