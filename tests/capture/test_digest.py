@@ -140,6 +140,8 @@ def _numbers(obj, path=""):
     return out
 
 
+# private modules: the size limits patched below (PARALLEL_MIN_SAMPLES, BLOCK_BYTES) and the digest's
+# step, counted to show the parent hashed while the workers ran, have no public door
 _WORKERS_CHECK = r"""
 import json, sys
 from analyzer import pipeline
