@@ -12,8 +12,7 @@ Modules: ``_json`` and ``_sweep`` (JSON), ``_html``, ``_pdf``, ``_figures``,
 """
 
 from ._files import (
-    DEFAULT_FORMATS, FORMATS, base_name, check_output, input_files, output_paths, parse_formats, report_paths,
-    write_all,
+    base_name, check_output, input_files, output_paths, parse_formats, report_paths, write_all,
 )
 from ._json import SCHEMA_PATH, build_report, dumps
 from ._outputs import analysis_files, batch_files, sweep_files
@@ -22,7 +21,7 @@ from ._sweep import sweep_report
 from ._terminal import Progress, print_batch_summary, print_summary, print_sweep_summary
 
 __all__ = [
-    "DEFAULT_FORMATS", "FORMATS", "base_name", "check_output", "input_files", "output_paths", "parse_formats",
+    "base_name", "check_output", "input_files", "output_paths", "parse_formats",
     "report_paths", "write_all", "SCHEMA_PATH", "build_report", "dumps", "analysis_files", "batch_files",
     "sweep_files", "failed_check_names", "sweep_report", "Progress", "print_batch_summary", "print_summary",
     "print_sweep_summary",
