@@ -7,8 +7,8 @@ from ._burst_timing import (
 from ._bursts import doubling_means, find_bursts, floor_track, segment_symbols, smoothing_frames
 from ._coarse import blind_tones, occupied_band, peak_tone_pairs
 from ._timing import (
-    TimingEstimate, grid_fit, grid_for_span, line_fit, narrow_spectrum, refine_timing, symbol_timing,
-    tone_difference,
+    RATE_BLOCKS, RateEstimate, TimingEstimate, grid_fit, grid_for_span, line_fit, measured_rate,
+    narrow_spectrum, refine_timing, slope_interval, symbol_timing, tone_difference,
 )
 from ._tones import lag_products, noncoherent_frequency, refine_tones
 
@@ -16,8 +16,9 @@ __all__ = [
     "BLIND_MIN_LINE_QUALITY", "blind_rate", "keying_contrast",
     "doubling_means", "find_bursts", "floor_track", "segment_symbols", "smoothing_frames",
     "blind_tones", "occupied_band", "peak_tone_pairs",
-    "TimingEstimate", "grid_fit", "grid_for_span", "line_fit", "narrow_spectrum", "refine_timing",
-    "symbol_timing", "tone_difference",
+    "RATE_BLOCKS", "RateEstimate", "TimingEstimate", "grid_fit", "grid_for_span", "line_fit",
+    "measured_rate", "narrow_spectrum", "refine_timing", "slope_interval", "symbol_timing",
+    "tone_difference",
     "lag_products", "noncoherent_frequency", "refine_tones",
     "ENERGY_REUSE_TONE_SHIFT", "MIN_BURST_SYMBOLS", "SpanTiming", "burst_timing", "bursts_in_span",
     "retime_burst",

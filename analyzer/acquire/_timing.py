@@ -24,7 +24,7 @@ import numpy as np
 from ..branches import EnergyTrace, SymbolGrid, energy_trace, oscillator, sliding_sums, symbol_grid, window_energy
 
 __all__ = ["GRID_FIT_MIN_CHANGES", "TimingEstimate", "estimate_symbol_timing", "grid_fit", "grid_for_span",
-           "line_fit", "narrow_spectrum", "refine_timing", "symbol_timing", "tone_difference", "tone_transitions",
+           "line_fit", "measured_rate", "narrow_spectrum", "RateEstimate", "refine_timing", "slope_interval", "symbol_timing", "tone_difference", "tone_transitions",
            "transition_line_timing"]
 
 
@@ -303,20 +303,46 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     n = grid.n_symbols
     if n < 4 * blocks:
         blocks = max(1, n // 4)
-    sps = grid.samples_per_symbol
+    span, step = _search_span(grid, span, step)
+    got = _block_best_shifts(x, x_start, grid, tones_hz, sample_rate_hz, blocks, span, step, energy, metric)
+    if got is None:
+        return grid
+    centres, best = got
+    if blocks >= 2:
+        slope, icpt = line_fit(centres, best)
+    else:
+        slope, icpt = 0.0, best[0]
+    return symbol_grid(grid.first_start + icpt, grid.samples_per_symbol + slope, n)
+
+
+def _search_span(grid: SymbolGrid, span: float | None, step: float | None) -> tuple[float, float]:
+    """Reach and step (samples) of the timing search around a grid (defaults of :func:`refine_timing`)."""
     if span is None:
         # continuous-phase keying gives the spectral line a weaker hold on the
         # timing: search a quarter of a symbol, at least 1.5 samples
-        span = max(1.5, 0.25 * sps)
+        span = max(1.5, 0.25 * grid.samples_per_symbol)
     if step is None:
         step = max(0.125, span / 24)
+    return span, step
+
+
+def _block_best_shifts(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
+                       blocks: int, span: float, step: float, energy: EnergyTrace | None,
+                       metric: str) -> tuple[np.ndarray, np.ndarray] | None:
+    """Best shift (samples) of each of ``blocks`` consecutive parts of the grid, and the parts' centres
+    (symbol index); None when the samples do not cover the shifted grids.
+
+    Each part's best shift is the centre of the plateau of its summed metric
+    over the shifts ``-span .. span`` in ``step`` (see :func:`refine_timing`).
+    """
+    n = grid.n_symbols
     deltas = np.arange(-span, span + step / 2, step)
     edges = np.linspace(0, n, blocks + 1).astype(int)
     # first sample of every symbol of every shifted grid (as SymbolGrid.first_samples)
     firsts = np.ceil(grid.starts[None, :] + deltas[:, None] - 1e-9).astype(np.int64)
     lo, hi = int(firsts.min()), int(firsts.max()) + 1
     if lo < x_start or hi - 1 + grid.window > x_start + len(x):
-        return grid
+        return None
     # the energy of a window at every start sample, once; each shifted grid picks its symbols
     e_all = None
     if metric == "energy" and energy is not None and energy.window == grid.window:
@@ -336,12 +362,96 @@ def refine_timing(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
         while hi < len(col) - 1 and col[hi + 1] >= col[i] - tol:
             hi += 1
         best[b] = 0.5 * (deltas[lo] + deltas[hi])
-    centres = 0.5 * (edges[:-1] + edges[1:] - 1)
-    if blocks >= 2:
-        slope, icpt = line_fit(centres, best)
-    else:
-        slope, icpt = 0.0, best[0]
-    return symbol_grid(grid.first_start + icpt, grid.samples_per_symbol + slope, n)
+    return 0.5 * (edges[:-1] + edges[1:] - 1), best
+
+
+#: Parts of the burst whose timing the symbol-rate measurement fits a line through,
+#: and the fewest symbols a part may hold (shorter bursts use fewer parts, at least 4).
+RATE_BLOCKS = 16
+RATE_BLOCK_MIN_SYMBOLS = 16
+
+
+@dataclass(frozen=True)
+class RateEstimate:
+    """A burst's measured symbol rate with its 95% interval.
+
+    Attributes
+    ----------
+    symbol_rate_hz : float
+        Sample rate over the fitted symbol period.
+    ci95_hz : tuple of float
+        95% interval of the rate (Student t on the line fit's residuals).
+    blocks : int
+        Parts of the burst the timing line was fitted through.
+    """
+
+    symbol_rate_hz: float
+    ci95_hz: tuple[float, float]
+    blocks: int
+
+
+def slope_interval(x: np.ndarray, y: np.ndarray, floor_var: float = 0.0,
+                   level: float = 0.95) -> tuple[float, float]:
+    """Least-squares slope of ``y`` on ``x`` and the half-width of its ``level`` interval.
+
+    The residual variance ``s^2 = sum r^2 / (m - 2)`` (at least ``floor_var``,
+    e.g. the variance a quantised ``y`` carries however good the data) gives
+    the slope's standard error ``s / sqrt(sum (x - mean x)^2)``; the half-width
+    is that times the Student t quantile with ``m - 2`` degrees of freedom.
+
+    References
+    ----------
+    .. [1] N. R. Draper and H. Smith, *Applied Regression Analysis*, 3rd ed.,
+       Wiley, 1998, sec. 1.4 (from memory).
+    """
+    from scipy import stats
+
+    x = np.asarray(x, float)
+    y = np.asarray(y, float)
+    m = len(x)
+    if m < 3:
+        raise ValueError("a slope interval needs at least 3 points")
+    slope, icpt = line_fit(x, y)
+    dx = x - x.mean()
+    r = y - (slope * x + icpt)
+    var = max(float(r @ r) / (m - 2), floor_var)
+    se = np.sqrt(var / float(dx @ dx))
+    return slope, float(stats.t.ppf(0.5 + level / 2, m - 2) * se)
+
+
+def measured_rate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
+                  metric: str = "energy", energy: EnergyTrace | None = None) -> RateEstimate | None:
+    """The symbol rate of a timed burst and its 95% interval, from the timing of its parts.
+
+    The burst's final grid is cut into up to :data:`RATE_BLOCKS` parts (at
+    least :data:`RATE_BLOCK_MIN_SYMBOLS` symbols each, at least 4 parts); each
+    part's best timing shift is found as in :func:`refine_timing` (same
+    metric, reach and step), and a straight line through the shifts gives the
+    correction of the symbol period and, from its residuals, the interval.
+    The shifts are quantised to half a search step, so their variance is taken
+    as at least ``step^2 / 12``.  More parts than the timing refinement's four
+    make the residuals, and so the interval, meaningful; the rate is that of
+    this fit (period ``T + slope``).
+
+    Returns
+    -------
+    RateEstimate or None
+        None when the burst is too short for 4 parts or the samples do not
+        cover the shifted grids.
+    """
+    blocks = min(RATE_BLOCKS, grid.n_symbols // RATE_BLOCK_MIN_SYMBOLS)
+    if blocks < 4:
+        return None
+    span, step = _search_span(grid, None, None)
+    got = _block_best_shifts(x, x_start, grid, tones_hz, sample_rate_hz, blocks, span, step, energy, metric)
+    if got is None:
+        return None
+    slope, half = slope_interval(*got, floor_var=step ** 2 / 12)
+    sps = grid.samples_per_symbol
+    fs = float(sample_rate_hz)
+    lo_sps, hi_sps = sps + slope - half, sps + slope + half
+    ci = (fs / hi_sps, fs / lo_sps if lo_sps > 0 else float("inf"))
+    return RateEstimate(symbol_rate_hz=fs / (sps + slope), ci95_hz=ci, blocks=blocks)
 
 
 def tone_difference(x: np.ndarray, sample_rate_hz: float, tones_hz, m: int) -> np.ndarray:
