@@ -23,9 +23,12 @@ import numpy as np
 
 from ..branches import EnergyTrace, SymbolGrid, energy_trace, oscillator, sliding_sums, symbol_grid, window_energy
 
-__all__ = ["GRID_FIT_MIN_CHANGES", "TimingEstimate", "estimate_symbol_timing", "grid_fit", "grid_for_span",
-           "line_fit", "measured_rate", "narrow_spectrum", "RateEstimate", "refine_timing", "slope_interval", "symbol_timing", "tone_difference", "tone_transitions",
-           "transition_line_timing"]
+__all__ = [
+    "GRID_FIT_MIN_CHANGES", "TimingEstimate", "estimate_symbol_timing", "grid_fit",
+    "grid_for_span", "line_fit", "measured_rate", "narrow_spectrum", "RateEstimate",
+    "refine_timing", "slope_interval", "symbol_timing", "tone_difference", "tone_transitions",
+    "transition_line_timing",
+]
 
 
 def _parabolic_peak(y: np.ndarray, i: int) -> float:
