@@ -17,7 +17,8 @@ prints per cell:
 * Eb/N0 bias and spread (dB) and the share of 95% intervals that hold the
   truth (binomial 99% band for the share beside it, ``scipy.stats.binom``);
 * tone bias and RMS error (% of R_s, both tones), symbol-rate bias and spread
-  (ppm), start bias and spread (samples).
+  (ppm) and the share of its 95% intervals that hold the truth, start bias and
+  spread (samples).
 
 ``--extra`` adds the receiver cases: 1200 Bd AFSK audio (1200/2200 Hz at 48 kHz)
 plain, and through a receiver chain (300-3000 Hz band-pass, 75 us or 750 us
@@ -96,6 +97,8 @@ def _one(task):
     return dict(eb=b.stats.ebn0_db - truth_db, cov=bool(lo <= truth_db <= hi),
                 tone=(np.array(b.tones_hz) - np.array(t["tones_hz"])) / rs * 100,
                 rate=(b.symbol_rate_hz / tb["symbol_rate_hz"] - 1) * 1e6,
+                rcov=b.symbol_rate_ci95_hz is not None
+                and b.symbol_rate_ci95_hz[0] <= tb["symbol_rate_hz"] <= b.symbol_rate_ci95_hz[1],
                 start=b.grid.first_start - tb["start_sample"], edges=b.n_symbols != tb["n_symbols"])
 
 
@@ -111,13 +114,14 @@ def _cell(pool, name, kw, level, hints, captures, base_seed):
     band = stats.binom.ppf([0.005, 0.995], n, 0.95) / n
     tone = np.array([g["tone"] for g in ok])
     rate = np.array([g["rate"] for g in ok])
+    rcov = np.mean([g["rcov"] for g in ok])
     start = np.array([g["start"] for g in ok])
     edges = np.mean([g["edges"] for g in ok])
     return (f"{name:<22} {level:5.0f} {'hints' if hints else 'blind':>6} {n:>3}/{captures} "
             f"{edges:6.2f} {min(2 * presence_error(level), 1):6.3f} "
             f"{e.mean():+7.3f} {e.std(ddof=1):6.3f} {cov:5.2f} [{band[0]:.2f},{band[1]:.2f}] "
             f"{tone.mean():+6.2f} {np.sqrt(np.mean(tone ** 2)):5.2f} "
-            f"{rate.mean():+7.1f} {rate.std(ddof=1):6.1f} {start.mean():+6.2f} {start.std(ddof=1):5.2f}")
+            f"{rate.mean():+7.1f} {rate.std(ddof=1):6.1f} {rcov:5.2f} {start.mean():+6.2f} {start.std(ddof=1):5.2f}")
 
 
 def main() -> None:
@@ -146,12 +150,12 @@ def main() -> None:
                   ("cont rect filt 6k", {**base, "channel_filter_hz": 6000.0})]
     print(f"{args.captures} captures a cell, {args.symbols} symbols; truth from the generator")
     head = ("case", "Eb/N0", "mode", "found", "edges", "optim", "bias", "sd", "cov", "99% band",
-            "tone b", "rms", "rate b", "sd", "start", "sd")
+            "tone b", "rms", "rate b", "sd", "cov", "start", "sd")
     print(f"{head[0]:<22} {head[1]:>5} {head[2]:>6} {head[3]:>6} {head[4]:>6} {head[5]:>6} {head[6]:>7} "
           f"{head[7]:>6} {head[8]:>5} {head[9]:>11} {head[10]:>6} {head[11]:>5} {head[12]:>7} {head[13]:>6} "
-          f"{head[14]:>6} {head[15]:>5}")
+          f"{head[14]:>5} {head[15]:>6} {head[16]:>5}")
     print(f"{'':<22} {'dB':>5} {'':>6} {'':>6} {'share':>6} {'share':>6} {'dB':>7} {'dB':>6} {'':>5} {'':>11} "
-          f"{'%R_s':>6} {'%R_s':>5} {'ppm':>7} {'ppm':>6} {'samp':>6} {'samp':>5}")
+          f"{'%R_s':>6} {'%R_s':>5} {'ppm':>7} {'ppm':>6} {'':>5} {'samp':>6} {'samp':>5}")
     t0 = time.time()
     with Pool(args.workers) as pool:
         for name, kw in cases:

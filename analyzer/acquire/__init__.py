@@ -2,7 +2,8 @@
 
 from ._blind import BLIND_MIN_LINE_QUALITY, blind_rate, keying_contrast
 from ._burst_timing import (
-    ENERGY_REUSE_TONE_SHIFT, MIN_BURST_SYMBOLS, SpanTiming, burst_timing, bursts_in_span, retime_burst,
+    ENERGY_REUSE_TONE_SHIFT, MIN_BURST_SYMBOLS, SpanTiming, burst_rate, burst_timing, bursts_in_span,
+    retime_burst,
 )
 from ._bursts import doubling_means, find_bursts, floor_track, segment_symbols, smoothing_frames
 from ._coarse import blind_tones, occupied_band, peak_tone_pairs
@@ -21,5 +22,5 @@ __all__ = [
     "tone_difference",
     "lag_products", "noncoherent_frequency", "refine_tones",
     "ENERGY_REUSE_TONE_SHIFT", "MIN_BURST_SYMBOLS", "SpanTiming", "burst_timing", "bursts_in_span",
-    "retime_burst",
+    "retime_burst", "burst_rate",
 ]

@@ -9,10 +9,10 @@ import numpy as np
 
 from .. import branches
 from ._bursts import segment_symbols
-from ._timing import TimingEstimate, grid_for_span, refine_timing, symbol_timing
+from ._timing import RateEstimate, TimingEstimate, grid_for_span, measured_rate, refine_timing, symbol_timing
 
 __all__ = ["MIN_BURST_SYMBOLS", "ENERGY_REUSE_TONE_SHIFT", "SpanTiming", "bursts_in_span", "burst_timing",
-           "retime_burst"]
+           "retime_burst", "burst_rate"]
 
 MIN_BURST_SYMBOLS = 16             # shortest burst analysed
 #: Tones that moved by less than this fraction of the symbol rate keep the
@@ -92,8 +92,25 @@ def retime_burst(x: np.ndarray, x_start: int, grid: branches.SymbolGrid, tones, 
     """
     if continuous:
         return refine_timing(x, x_start, grid, tones, fs, metric="contrast"), energy
+    energy = _energy_for(x, x_start, grid, tones, fs, energy)
+    return refine_timing(x, x_start, grid, tones, fs, energy=energy), energy
+
+
+def _energy_for(x: np.ndarray, x_start: int, grid: branches.SymbolGrid, tones, fs: float,
+                energy: branches.EnergyTrace | None) -> branches.EnergyTrace:
+    """``energy`` while the tones moved by less than :data:`ENERGY_REUSE_TONE_SHIFT` of the symbol rate
+    and the window is the same; else the window energies for these tones and grid."""
     if (energy is None or energy.window != grid.window
             or max(abs(a - b) for a, b in zip(tones, energy.tones_hz))
             > ENERGY_REUSE_TONE_SHIFT * fs / grid.samples_per_symbol):
         energy = branches.energy_trace(x, x_start, grid.window, tones, fs)
-    return refine_timing(x, x_start, grid, tones, fs, energy=energy), energy
+    return energy
+
+
+def burst_rate(x: np.ndarray, x_start: int, grid: branches.SymbolGrid, tones, fs: float, continuous: bool,
+               energy: branches.EnergyTrace | None) -> RateEstimate | None:
+    """The burst's symbol rate and its 95% interval on its final grid (:func:`measured_rate`), with
+    the timing metric of its keying (see :func:`retime_burst`)."""
+    if continuous:
+        return measured_rate(x, x_start, grid, tones, fs, metric="contrast")
+    return measured_rate(x, x_start, grid, tones, fs, energy=_energy_for(x, x_start, grid, tones, fs, energy))

@@ -368,6 +368,18 @@ def _block_best_shifts(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, 
     return 0.5 * (edges[:-1] + edges[1:] - 1), best
 
 
+def _covered_symbols(grid: SymbolGrid, span: float, x_start: int, n_samples: int) -> SymbolGrid:
+    """The grid without the first and last symbols whose windows, shifted by up to ``span``, would
+    leave the samples ``x_start .. x_start + n_samples - 1``."""
+    starts = grid.starts
+    ok = (np.ceil(starts - span - 1e-9) >= x_start) & (np.ceil(starts + span - 1e-9) + grid.window <= x_start + n_samples)
+    idx = np.flatnonzero(ok)
+    if idx.size == 0:
+        return symbol_grid(grid.first_start, grid.samples_per_symbol, 0)
+    first, last = int(idx[0]), int(idx[-1])
+    return symbol_grid(float(starts[first]), grid.samples_per_symbol, last - first + 1)
+
+
 #: Parts of the burst whose timing the symbol-rate measurement fits a line through,
 #: and the fewest symbols a part may hold (shorter bursts use fewer parts, at least 4).
 RATE_BLOCKS = 16
@@ -436,17 +448,22 @@ def measured_rate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     make the residuals, and so the interval, meaningful; the rate is that of
     this fit (period ``T + slope``).
 
+    A burst that begins or ends within a search reach of the samples' ends
+    (a capture started during the transmission) is measured without the
+    symbols the shifted windows would leave the samples on; the slope per
+    symbol is the same.
+
     Returns
     -------
     RateEstimate or None
-        None when the burst is too short for 4 parts or the samples do not
-        cover the shifted grids.
+        None when the burst is too short for 4 parts.
     """
-    blocks = min(RATE_BLOCKS, grid.n_symbols // RATE_BLOCK_MIN_SYMBOLS)
+    span, step = _search_span(grid, None, None)
+    inner = _covered_symbols(grid, span, x_start, len(x))
+    blocks = min(RATE_BLOCKS, inner.n_symbols // RATE_BLOCK_MIN_SYMBOLS)
     if blocks < 4:
         return None
-    span, step = _search_span(grid, None, None)
-    got = _block_best_shifts(x, x_start, grid, tones_hz, sample_rate_hz, blocks, span, step, energy, metric)
+    got = _block_best_shifts(x, x_start, inner, tones_hz, sample_rate_hz, blocks, span, step, energy, metric)
     if got is None:
         return None
     slope, half = slope_interval(*got, floor_var=step ** 2 / 12)

@@ -286,11 +286,14 @@ def _result(index: int, s: _Samples, tr: _Track, sy: _Sync, kn: _Known, f: _Fit,
     if opts.tones_hz is not None:
         nominal_loss = theory.nominal_template_loss_db((float(tr.tones[0]), float(tr.tones[1])), opts.tones_hz, s.fs,
                                                       tr.grid.window)
+    rate = acquire.burst_rate(s.x, s.x_start, tr.grid, tr.tones, s.fs, tr.continuous, tr.energy)
     diag = diagnostics.diagnose_burst(s.x, s.x_start, s.fs, tr.grid, tr.tones, tr.out, kn.sent, stats,
                                       f.fit.moments, f.rho, th.model, kn.ber, th.loss, f.scale, rows)
     return BurstResult(
         index=index, grid=tr.grid, tones_hz=(float(tr.tones[0]), float(tr.tones[1])),
-        symbol_rate_hz=float(s.fs / tr.grid.samples_per_symbol), timing_quality=float(tr.timing.line_snr),
+        symbol_rate_hz=float(s.fs / tr.grid.samples_per_symbol) if rate is None else float(rate.symbol_rate_hz),
+        symbol_rate_ci95_hz=None if rate is None else (float(rate.ci95_hz[0]), float(rate.ci95_hz[1])),
+        timing_quality=float(tr.timing.line_snr),
         outputs=tr.out, decisions=tr.dec, sent=kn.sent, stats=stats, moments=f.fit.moments, rho=f.rho, ber=kn.ber,
         ber_theory=th.ber, theory_model=th.model, loss=th.loss,
         power_dbfs=float(10 * np.log10(p)) if p > 0 else float("-inf"),

@@ -85,6 +85,7 @@ class BurstResult:
     ber_reason: str | None = None                     # why no bit errors were counted (None when they were)
     keying: str | None = None         # "continuous-phase" / "phase-discontinuous" (estimate.keying_name), None: unknown
     nominal_template_loss_db: float | None = None     # templates at the nominal tones (None without --tones)
+    symbol_rate_ci95_hz: tuple[float, float] | None = None   # acquire.measured_rate (None: too short)
 
     @property
     def n_symbols(self) -> int:
