@@ -96,6 +96,7 @@ def burst_dict(b, sample_rate_hz: float) -> dict:
         "centre_offset_hz": _num(b.centre_offset_hz),
         "deviation_hz": _num(b.deviation_hz),
         "symbol_rate_hz": _num(b.symbol_rate_hz),
+        "symbol_rate_hz_ci95": [None, None] if b.symbol_rate_ci95_hz is None else _pair(b.symbol_rate_ci95_hz),
         "tone_correlation": _num(abs(b.rho)),
         "tone_imbalance_db": _num(b.stats.imbalance_db),
         "nominal_template_loss_db": _num(b.nominal_template_loss_db),

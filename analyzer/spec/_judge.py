@@ -27,6 +27,7 @@ class BurstReading:
     tones_hz: tuple[float | None, float | None]
     tones_hz_ci95: tuple[Interval, Interval]
     symbol_rate_hz: float | None
+    symbol_rate_hz_ci95: Interval
     tone_imbalance_db: float | None
     tone_imbalance_db_ci95: Interval
     tone_correlation: float | None
@@ -78,7 +79,9 @@ def _burst_reading(b, sample_rate_hz: float) -> BurstReading:
     iv = estimate.burst_intervals(b.tones_hz, b.stats.gain_sq, b.stats.noise_var_complex, b.stats.n_symbols,
                                   b.grid.window, sample_rate_hz, nominal_centre)
     return BurstReading(tones_hz=_pair(b.tones_hz), tones_hz_ci95=(_pair(iv.tones_hz[0]), _pair(iv.tones_hz[1])),
-                        symbol_rate_hz=_num(b.symbol_rate_hz), tone_imbalance_db=_num(b.stats.imbalance_db),
+                        symbol_rate_hz=_num(b.symbol_rate_hz),
+                        symbol_rate_hz_ci95=(None, None) if b.symbol_rate_ci95_hz is None else _pair(b.symbol_rate_ci95_hz),
+                        tone_imbalance_db=_num(b.stats.imbalance_db),
                         tone_imbalance_db_ci95=_pair(iv.imbalance_db), tone_correlation=_num(abs(b.rho)),
                         tone_correlation_ci95=_pair(iv.tone_correlation))
 
@@ -172,9 +175,9 @@ def judge(result, spec: Spec) -> tuple[list[dict], str]:
         interval ``ci95`` (BER: Clopper-Pearson; Eb/N0 and implementation loss:
         their reported intervals; tone error, imbalance and correlation: the
         interval of the worst burst's value from each burst's interval, see
-        :func:`analyzer.estimate.burst_intervals`); the symbol rate carries no
-        interval yet and is never marginal.  A quantity that could not be
-        measured fails with a note saying why.
+        :func:`analyzer.estimate.burst_intervals`; symbol-rate error: likewise
+        from each burst's rate interval, :func:`analyzer.acquire.measured_rate`).
+        A quantity that could not be measured fails with a note saying why.
     verdict : str
         ``"pass"`` when every check passes, ``"fail"`` otherwise, and
         ``"not-judged"`` when the spec gives no limits.
@@ -234,10 +237,20 @@ def _rate_error(bursts, rate_nom, L) -> dict:
     name = "symbol_rate_error_ppm"
     if not rate_nom:
         return _unmeasured(name, L, "no nominal symbol rate")
-    w = _worst([abs(b.symbol_rate_hz - rate_nom) / rate_nom * 1e6 for b in bursts if b.symbol_rate_hz is not None])
+    measured = [b for b in bursts if b.symbol_rate_hz is not None]
+    w = _worst([abs(b.symbol_rate_hz - rate_nom) / rate_nom * 1e6 for b in measured])
     if w is None:
         return _unmeasured(name, L, "no burst with a measured symbol rate")
-    return _check(name, w, L, w <= L, note=f"worst burst against {rate_nom:g} Bd")
+    ci = _worst_interval([_ppm_interval(b.symbol_rate_hz_ci95, rate_nom) for b in measured])
+    return _judged(name, w, L, ci, f"worst burst against {rate_nom:g} Bd", "ppm")
+
+
+def _ppm_interval(ci, rate_nom: float):
+    """The range of ``|R - R_nom| / R_nom`` in ppm for ``R`` in ``ci``."""
+    lo, hi = ci if ci else (None, None)
+    if lo is None or hi is None:
+        return None, None
+    return _abs_interval((lo / rate_nom * 1e6, hi / rate_nom * 1e6), 1e6)
 
 
 def _max_ber(r: Readings, L) -> dict:

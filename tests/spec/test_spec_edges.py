@@ -15,9 +15,9 @@ import pytest
 from analyzer.spec import BurstReading, Readings, judge, parse_spec
 
 
-def _burst(tones, tone_ci, rate, imb, imb_ci, rho, rho_ci):
+def _burst(tones, tone_ci, rate, imb, imb_ci, rho, rho_ci, rate_ci=(None, None)):
     return BurstReading(tones_hz=tuple(tones), tones_hz_ci95=tuple(tuple(c) for c in tone_ci), symbol_rate_hz=rate,
-                        tone_imbalance_db=imb, tone_imbalance_db_ci95=tuple(imb_ci), tone_correlation=rho,
+                        symbol_rate_hz_ci95=tuple(rate_ci), tone_imbalance_db=imb, tone_imbalance_db_ci95=tuple(imb_ci), tone_correlation=rho,
                         tone_correlation_ci95=tuple(rho_ci))
 
 
@@ -27,8 +27,10 @@ def _report(bursts, ebn0=9.0, ebn0_ci=(8.5, 9.5), nominal=True):
                     implementation_loss_db=None, implementation_loss_db_ci95=(None, None))
 
 
-B0 = _burst((-2240.0, 2510.0), ((-2250.0, -2230.0), (2490.0, 2530.0)), 5001.0, -1.4, (-1.9, -0.9), 0.02, (0.01, 0.03))
-B1 = _burst((-2400.0, 2600.0), ((-2420.0, -2380.0), (2580.0, 2620.0)), 4998.0, 0.9, (0.4, 1.4), 0.05, (0.04, 0.06))
+B0 = _burst((-2240.0, 2510.0), ((-2250.0, -2230.0), (2490.0, 2530.0)), 5001.0, -1.4, (-1.9, -0.9), 0.02, (0.01, 0.03),
+            (5000.5, 5001.5))
+B1 = _burst((-2400.0, 2600.0), ((-2420.0, -2380.0), (2580.0, 2620.0)), 4998.0, 0.9, (0.4, 1.4), 0.05, (0.04, 0.06),
+            (4997.5, 4998.6))
 
 
 def _one(limits, bursts=(B0, B1), **kw):
@@ -63,10 +65,20 @@ def test_limit_at_an_interval_end_is_marginal():
 
 def test_rate_and_correlation_checks_take_the_worst_burst():
     # rate: |4998 - 5000| / 5000 * 1e6 = 400 ppm (burst 1) against |5001 - 5000| / 5000 * 1e6 = 200
+    # its interval: burst 0's 5000.5..5001.5 Bd is 100..300 ppm, burst 1's 4997.5..4998.6 Bd is
+    # 280..500 ppm; the worst of them max(100, 280)..max(300, 500) = 280..500 ppm
     c, _ = _one("symbol_rate_error_ppm = 400.0\n")
-    assert c["measured"] == pytest.approx(400.0) and c["pass"]
+    assert c["measured"] == pytest.approx(400.0) and c["pass"] and c["marginal"]
+    assert c["ci95"] == pytest.approx([280.0, 500.0])
     c, _ = _one("symbol_rate_error_ppm = 399.0\n")
-    assert not c["pass"]
+    assert not c["pass"] and c["marginal"]
+    c, _ = _one("symbol_rate_error_ppm = 501.0\n")
+    assert c["pass"] and not c["marginal"]
+    # a burst without a rate interval (too short): the worst interval is not known, never marginal
+    b1 = _burst((-2400.0, 2600.0), ((-2420.0, -2380.0), (2580.0, 2620.0)), 4998.0, 0.9, (0.4, 1.4), 0.05,
+                (0.04, 0.06))
+    c, _ = _one("symbol_rate_error_ppm = 400.0\n", bursts=(B0, b1))
+    assert c["pass"] and not c["marginal"] and c["ci95"] == [None, None]
     # correlation: worst 0.05 (burst 1), interval max(0.01, 0.04)..max(0.03, 0.06) = 0.04..0.06
     c, _ = _one("max_tone_correlation = 0.045\n")
     assert c["measured"] == pytest.approx(0.05) and not c["pass"] and c["marginal"]
