@@ -8,9 +8,10 @@ from ._burst_timing import (
 from ._bursts import doubling_means, find_bursts, floor_track, segment_symbols, smoothing_frames
 from ._coarse import blind_tones, occupied_band, peak_tone_pairs
 from ._timing import (
-    RATE_BLOCKS, RateEstimate, TimingEstimate, grid_fit, grid_for_span, line_fit, measured_rate,
-    narrow_spectrum, refine_timing, slope_interval, symbol_timing, tone_difference,
+    TimingEstimate, grid_fit, grid_for_span, line_fit, narrow_spectrum, refine_timing, symbol_timing,
+    tone_difference,
 )
+from ._rate import RATE_BLOCKS, RateEstimate, measured_rate, slope_interval
 from ._tones import lag_products, noncoherent_frequency, refine_tones
 
 __all__ = [

@@ -9,7 +9,8 @@ import numpy as np
 
 from .. import branches
 from ._bursts import segment_symbols
-from ._timing import RateEstimate, TimingEstimate, grid_for_span, measured_rate, refine_timing, symbol_timing
+from ._rate import RateEstimate, measured_rate
+from ._timing import TimingEstimate, grid_for_span, refine_timing, symbol_timing
 
 __all__ = ["MIN_BURST_SYMBOLS", "ENERGY_REUSE_TONE_SHIFT", "SpanTiming", "bursts_in_span", "burst_timing",
            "retime_burst", "burst_rate"]

@@ -47,7 +47,7 @@ def test_ebn0_and_error_count_against_theory(tmp_path, ebn0_db, seed):
     s = out.summary
     # Reference: the generator's set Eb/N0 (its definition in analyzer/synth.py).  Tolerance: 4.42
     # standard deviations of the estimate (two-sided normal tail 1e-5, scipy.stats.norm), the standard
-    # deviation read from the reported 95% interval, whose coverage tests/test_intervals.py checks;
+    # deviation read from the reported 95% interval, whose coverage tests/estimate/test_estimate_intervals.py checks;
     # the interval itself must be narrow (3000 symbols: half-width about 0.27 dB at 4 dB, 0.18 at 12).
     lo95, hi95 = s.stats.ebn0_db_ci95
     sd = (hi95 - lo95) / (2 * stats.norm.isf(0.025))

@@ -22,7 +22,7 @@ from analyzer import errorcount, pipeline, capture
 from analyzer import report
 from analyzer.synth import SynthParams, synthesize
 
-DATA = Path(__file__).parent / "data"
+DATA = Path(__file__).parents[1] / "data"
 REAL = DATA / "afsk1200_satellite_downlink.wav"
 # the two frames listed in tests/data/README.md (bytes without flags and FCS)
 REAL_FRAMES = [
