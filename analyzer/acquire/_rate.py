@@ -7,7 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..branches import EnergyTrace, SymbolGrid, symbol_grid
-from ._timing import _block_best_shifts, _search_span, line_fit
+from ._timing import _block_best_shifts, _search_span
 
 __all__ = ["RATE_BLOCKS", "RATE_BLOCK_MIN_SYMBOLS", "RateEstimate", "measured_rate", "slope_interval"]
 
@@ -49,19 +49,34 @@ class RateEstimate:
     blocks: int
 
 
+#: Asymptotic efficiency of the median absolute deviation as a scale estimate of normal data
+#: (Huber, *Robust Statistics*, 1981, from memory): the Student t quantile of the interval uses this
+#: share of the residual degrees of freedom.
+MAD_EFFICIENCY = 0.37
+
+
 def slope_interval(x: np.ndarray, y: np.ndarray, floor_var: float = 0.0,
                    level: float = 0.95) -> tuple[float, float]:
-    """Least-squares slope of ``y`` on ``x`` and the half-width of its ``level`` interval.
+    """Robust slope of ``y`` on ``x`` and the half-width of its ``level`` interval.
 
-    The residual variance ``s^2 = sum r^2 / (m - 2)`` (at least ``floor_var``,
-    e.g. the variance a quantised ``y`` carries however good the data) gives
-    the slope's standard error ``s / sqrt(sum (x - mean x)^2)``; the half-width
-    is that times the Student t quantile with ``m - 2`` degrees of freedom.
+    The slope is Theil and Sen's, the median of the slopes between all pairs
+    of points (``scipy.stats.theilslopes``): a part of a burst whose timing
+    locked on a wrong plateau moves it little, where it would pull a
+    least-squares line.  The residual scale is the normal-consistent median
+    absolute deviation of the residuals from that line, at least
+    ``sqrt(floor_var)`` (the spread a quantised ``y`` keeps however good the
+    data); the slope's standard error ``scale / sqrt(sum (x - mean x)^2)``
+    times the Student t quantile gives the half-width, with
+    :data:`MAD_EFFICIENCY` of the ``m - 2`` residual degrees of freedom (the
+    median deviation is a less precise scale than the standard deviation).
 
     References
     ----------
-    .. [1] N. R. Draper and H. Smith, *Applied Regression Analysis*, 3rd ed.,
-       Wiley, 1998, sec. 1.4 (from memory).
+    .. [1] P. K. Sen, "Estimates of the regression coefficient based on
+       Kendall's tau," *J. Amer. Statist. Assoc.*, vol. 63, pp. 1379-1389,
+       1968 (from memory).
+    .. [2] N. R. Draper and H. Smith, *Applied Regression Analysis*, 3rd ed.,
+       Wiley, 1998, sec. 1.4: the standard error of a slope (from memory).
     """
     from scipy import stats
 
@@ -70,12 +85,14 @@ def slope_interval(x: np.ndarray, y: np.ndarray, floor_var: float = 0.0,
     m = len(x)
     if m < 3:
         raise ValueError("a slope interval needs at least 3 points")
-    slope, icpt = line_fit(x, y)
+    slope, icpt, _, _ = stats.theilslopes(y, x)
     dx = x - x.mean()
     r = y - (slope * x + icpt)
-    var = max(float(r @ r) / (m - 2), floor_var)
+    scale = float(stats.median_abs_deviation(r, scale="normal"))
+    var = max(scale ** 2, floor_var)
     se = np.sqrt(var / float(dx @ dx))
-    return slope, float(stats.t.ppf(0.5 + level / 2, m - 2) * se)
+    dof = max(2, round(MAD_EFFICIENCY * (m - 2)))
+    return slope, float(stats.t.ppf(0.5 + level / 2, dof) * se)
 
 
 def measured_rate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sample_rate_hz: float,
@@ -85,7 +102,7 @@ def measured_rate(x: np.ndarray, x_start: int, grid: SymbolGrid, tones_hz, sampl
     The burst's final grid is cut into up to :data:`RATE_BLOCKS` parts (at
     least :data:`RATE_BLOCK_MIN_SYMBOLS` symbols each, at least 4 parts); each
     part's best timing shift is found as in :func:`refine_timing` (same
-    metric, reach and step), and a straight line through the shifts gives the
+    metric, reach and step), and a robust line through the shifts (:func:`slope_interval`) gives the
     correction of the symbol period and, from its residuals, the interval.
     The shifts are quantised to half a search step, so their variance is taken
     as at least ``step^2 / 12``.  More parts than the timing refinement's four
