@@ -196,6 +196,7 @@ def main() -> int:
             jobs["compared: analyze"] = lambda: child(CHILD_ANALYZE, str(meta), "all", *hint, tree=other)
             jobs["compared: workers=1"] = lambda: child(CHILD_ANALYZE, str(meta), "1", *hint, tree=other)
         runs: dict = {}
+        load_before = os.getloadavg()
         for _ in range(a.repeat):
             runs.setdefault("demo", []).append(child(CHILD_ANALYZE, str(DEMO), "all", *demo))
             for temp in ("cold", "warm"):
@@ -207,6 +208,9 @@ def main() -> int:
     rss = {k: max(r["maxrss_kb"] for r in v) / 1024 for k, v in runs.items()}
     print(f"tonepair long capture: {n / 2 ** 20:g} Msamples cf32 ({8 * n / 2 ** 30:.2f} GiB), {N_BURSTS} bursts of "
           f"{BURST_SYMBOLS} symbols, core:sha512 checked; {os.cpu_count()} CPUs, medians of {a.repeat}")
+    # other work on the machine takes cores from the two-thread analysis sooner than from the one-thread floor
+    print(f"load average (1 min) before {load_before[0]:.2f}, after {os.getloadavg()[0]:.2f}: figures are "
+          f"fair only near 0 on an otherwise idle machine")
     if a.compare is not None:
         print(f"compared: the analyzer of {a.compare.resolve()}")
     print(f"demo capture analysis (the fixed cost): {med['demo']:.3f} s wall, {cpu['demo']:.3f} s CPU "

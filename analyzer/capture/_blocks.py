@@ -85,7 +85,10 @@ class _MemmapSource:
     (``numpy.fromfile`` at an offset) and keeps nothing mapped, so the
     process's resident memory does not grow with the part of the file read
     so far (a long-lived ``numpy.memmap`` would keep every page touched
-    resident until it is closed).
+    resident until it is closed).  A read that starts where the previous one
+    ended asks the kernel to read the next stretch of as many bytes in the
+    background (``posix_fadvise`` ``WILLNEED``), so a pass over the file does
+    not wait for the disk block after block.
 
     Parameters
     ----------
@@ -116,16 +119,21 @@ class _MemmapSource:
         # little-endian float32 I/Q of one channel: read straight into complex64
         self._direct = (self.component == np.dtype("<f4") and n_comp == 2 and n_channels == 1
                         and scale == 1.0 and not bias)
+        self._end = -1              # the byte after the last read
 
     def _read(self, i: int, lo: int, hi: int, dtype) -> np.ndarray:
         """Stored values of samples ``lo <= n < hi`` of piece ``i``."""
         first, stop, base = self.pieces[i]
         frame = self.component.itemsize * self.n_comp * self.n_channels
         per = 1 if dtype is not self.component else self.n_comp * self.n_channels
-        x = np.fromfile(self.path, dtype=dtype, count=(hi - lo) * per, offset=base + lo * frame)
+        start, size = base + lo * frame, (hi - lo) * frame
+        x = np.fromfile(self.path, dtype=dtype, count=(hi - lo) * per, offset=start)
         if len(x) != (hi - lo) * per:
             raise InputError(f"file ends early: samples {lo} to {hi} were expected", self.path,
                              "the file changed or was cut short while it was read")
+        if start == self._end:
+            _read_ahead(self.path, start + size, size)
+        self._end = start + size
         return x
 
     def read_complex64(self, a: int, b: int) -> np.ndarray | None:
@@ -170,6 +178,24 @@ class _MemmapSource:
         if self.n_comp == 2:
             return x[:, 0] + 1j * x[:, 1]
         return x[:, 0]
+
+
+def _read_ahead(path: Path, offset: int, size: int) -> None:
+    """Ask the kernel to read ``size`` bytes of ``path`` from ``offset`` on into the page cache, in the background."""
+    import os
+
+    if not hasattr(os, "posix_fadvise"):
+        return
+    try:
+        fd = os.open(path, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.posix_fadvise(fd, offset, size, os.POSIX_FADV_WILLNEED)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
 
 
 

@@ -6,8 +6,11 @@ input work on a long capture; here the digest is fed the bytes the pass over
 the capture reads (or, where those are converted on reading, the same bytes
 read again from the page cache just after), in order, and reads by itself
 only what the pass does not: segment headers, trailing bytes, the bytes
-between reads.  When forked workers share the pass, the parent feeds the
-digest in large blocks while they run (:meth:`FileDigest.step`).
+between reads.  The hashing runs on a thread of its own beside the pass
+(``hashlib`` releases the interpreter lock while it hashes a large buffer,
+and so does the file read), so on two cores the pass costs little more than
+the hash.  When forked workers share the pass, the parent feeds the digest
+in large blocks while they run (:meth:`FileDigest.step`).
 
 References
 ----------
@@ -20,12 +23,17 @@ from __future__ import annotations
 
 import hashlib
 import os
+import queue
+import threading
 from pathlib import Path
 
 __all__ = ["BLOCK_BYTES", "FileDigest", "CaptureDigest", "file_sha512"]
 
 #: Bytes read and hashed at a time where the digest reads by itself.
 BLOCK_BYTES = 1 << 24
+#: Bytes of the pass's reads that may wait for the hashing thread (the pass
+#: waits beyond that, so memory does not grow with the capture).
+QUEUE_BYTES = 1 << 24
 
 
 class FileDigest:
@@ -114,7 +122,7 @@ class FileDigest:
 
 
 class CaptureDigest(FileDigest):
-    """The digest of a capture's data file, fed by the pass's sample reads.
+    """The digest of a capture's data file, fed by the pass's sample reads, hashed on a thread of its own.
 
     Parameters
     ----------
@@ -127,22 +135,71 @@ class CaptureDigest(FileDigest):
         ``(file_offset, i, j)`` for the array's samples ``i <= k < j``.
     block : int, optional
         Bytes per read where the digest reads by itself.
+
+    Notes
+    -----
+    :meth:`seen` hands each read to the hashing thread, which is started at
+    the first one (so a process that forks workers for the pass, and only
+    calls :meth:`~FileDigest.step`, starts no thread) and joined by
+    :meth:`hexdigest` or :meth:`close`.  The arrays handed over are only
+    read, never changed.
     """
 
     def __init__(self, path, sample_bytes, block: int | None = None):
         super().__init__(path, block)
         self._where = sample_bytes
+        self._queue: queue.Queue | None = None
+        self._thread: threading.Thread | None = None
+        self._error: BaseException | None = None
 
     def seen(self, pos: int, x) -> None:
-        """The samples ``x`` from sample ``pos`` on were just read: hash the file up to their end."""
+        """The samples ``x`` from sample ``pos`` on were just read: hash the file up to their end
+        (on the hashing thread; this waits only while :data:`QUEUE_BYTES` of reads are still to hash)."""
         if len(x) == 0:
             return
+        if self._thread is None:
+            self._queue = queue.Queue(maxsize=max(2, QUEUE_BYTES // max(x.nbytes, 1)))
+            self._thread = threading.Thread(target=self._run, name="capture-sha512", daemon=True)
+            self._thread.start()
+        self._queue.put((pos, x))
+
+    def _run(self) -> None:
+        while True:
+            item = self._queue.get()
+            if item is None:
+                return
+            if self._error is None:
+                try:
+                    self._take(*item)
+                except BaseException as exc:        # raised again where the digest is read
+                    self._error = exc
+
+    def _take(self, pos: int, x) -> None:
         runs, end = self._where(pos, pos + len(x))
         if runs is not None:
             for offset, i, j in runs:        # the very bytes read: nothing is read twice
                 self.update(offset, x[i:j])
         else:
             self.advance(end)                # converted on reading: the bytes again, from the page cache
+
+    def _join(self) -> None:
+        """Wait for the hashing thread to hash what it was handed, and end it."""
+        if self._thread is not None:
+            self._queue.put(None)
+            self._thread.join()
+            self._thread = self._queue = None
+
+    def hexdigest(self) -> str:
+        """The SHA-512 of the whole file, lower-case hex (an error the hashing thread met is raised here)."""
+        self._join()
+        if self._error is not None:
+            raise self._error
+        return super().hexdigest()
+
+    def close(self) -> None:
+        """End the hashing thread and close the file (an error it met is kept for :meth:`hexdigest`)."""
+        self._join()
+        super().close()
 
 
 def file_sha512(path, block: int | None = None) -> str:

@@ -39,6 +39,9 @@ def _checked_survey(cap: Capture, strict: bool, **kw) -> survey.Survey:
         return survey.survey(**kw)
     from ..capture import CaptureDigest
 
+    # the hashing keeps one core busy: one process fewer for the pass (on two cores the pass
+    # stays in this process, beside the hashing thread)
+    kw["workers"] = max(1, kw.get("workers", 1) - 1)
     digest = CaptureDigest(cap.data_path, cap.sample_bytes)
     try:
         scan = survey.survey(digest=digest, **kw)

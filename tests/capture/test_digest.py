@@ -160,7 +160,7 @@ digest.FileDigest.step = step
 kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000)
 out = {}
 for name in sys.argv[1:3]:
-    for workers in (1, 2):
+    for workers in (1, 2, 3):
         for block in (8192, None):
             r = pipeline.analyze(name, workers=workers, block=block, **kw)
             try:
@@ -174,8 +174,9 @@ json.dump({"runs": out, "steps": len(steps)}, open(sys.argv[3], "w"))
 
 
 def test_checksum_in_the_pass_is_the_same_for_any_workers_and_block(tmp_path):
-    """Forked workers share the pass while the parent hashes the file in order: the same warning, the
-    same strict error and the same numbers as one process (reference: the one-process run, exact).
+    """The pass in this process beside the hashing thread (workers 1 and 2: the hashing takes a core), or
+    shared by forked workers while the parent hashes the file in order (3): the same warning, the same
+    strict error and the same numbers as one process (reference: the one-process run, exact).
     Run in a fresh interpreter: this test process may hold other threads, and then nothing forks."""
     good = _write(tmp_path, "good", "cf32_le")
     bad = _write(tmp_path, "bad", "cf32_le", "sample")
@@ -184,7 +185,7 @@ def test_checksum_in_the_pass_is_the_same_for_any_workers_and_block(tmp_path):
     got = json.loads(out.read_text())
     assert got["steps"] > 10                                  # the parent did hash while the workers ran
     for name, mismatch in ((str(good), False), (str(bad), True)):
-        runs = [got["runs"][f"{name} {w} {b}"] for w in (1, 2) for b in (8192, None)]
+        runs = [got["runs"][f"{name} {w} {b}"] for w in (1, 2, 3) for b in (8192, None)]
         for run in runs:
             assert len([w for w in run["report"]["warnings"] if MISMATCH in w]) == int(mismatch)
             assert (MISMATCH in run["strict"]) == mismatch
