@@ -38,7 +38,10 @@ bursts in the same run, it times
 
 prints the medians of the repeats in ms of CPU time per burst, the ratios of the full
 analysis to each floor (goal: at most 10x the first at 16 samples per
-symbol) and the growth with samples per symbol (goal: no faster than linear).
+symbol) and the growth with samples per symbol (goal: no faster than linear),
+and where a burst's time goes: the CPU time of each step of the per-burst
+analysis (the step functions of ``analyzer.pipeline._burst`` timed one by one,
+the diagnostics apart from the result they feed).
 
 The captures carry no ``core:sha512``: checking a checksum is one more read of
 the file that the reference does not make.
@@ -239,17 +242,86 @@ def _median_ms(fn, repeat: int) -> float:
     return 1e3 * float(np.median(times))
 
 
+#: The per-burst steps timed one by one: names in ``analyzer.pipeline._burst`` in the order
+#: ``analyse_burst`` calls them (``_result`` is timed without the diagnostics, shown on their own).
+BURST_STEPS = ("_time", "_correlate", "_sync", "_track_tones", "_settle", "_edges", "_known", "_fit",
+               "_likelihood", "_theory", "_warn", "_result")
+
+
+class _StepClock:
+    """CPU time spent in each named step while installed (the module attributes wrapped, then restored)."""
+
+    def __init__(self):
+        from analyzer import acquire, diagnostics
+        from analyzer.pipeline import _burst  # the steps have no public door: timed where they live
+        self.spent: dict[str, float] = {}
+        self._targets = [(_burst, name, name.lstrip("_")) for name in BURST_STEPS]
+        self._targets += [(acquire, "bursts_in_span", "span"), (diagnostics, "diagnose_burst", "diagnose")]
+        self._saved = []
+
+    def _wrap(self, fn, label):
+        def timed(*args, **kwargs):
+            t = time.process_time()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                self.spent[label] = self.spent.get(label, 0.0) + time.process_time() - t
+        return timed
+
+    def __enter__(self):
+        for mod, name, label in self._targets:
+            fn = getattr(mod, name)
+            self._saved.append((mod, name, fn))
+            setattr(mod, name, self._wrap(fn, label))
+        return self
+
+    def __exit__(self, *exc):
+        for mod, name, fn in reversed(self._saved):
+            setattr(mod, name, fn)
+        self._saved.clear()
+
+
+def step_times(args, repeat: int) -> dict[str, float]:
+    """Median CPU ms per step of one region analysis (``region_bursts(*args)``), with ``other``
+    the rest of the region analysis (the receiver input) and ``result`` without the diagnostics."""
+    from analyzer.pipeline import _regions
+    runs = []
+    for _ in range(repeat):
+        with _StepClock() as clock:
+            t = time.process_time()
+            _regions.region_bursts(*args)
+            total = time.process_time() - t
+        spent = dict(clock.spent)
+        spent["result"] = spent.get("result", 0.0) - spent.get("diagnose", 0.0)
+        spent["other"] = total - sum(spent.values())
+        runs.append(spent)
+    return {k: 1e3 * float(np.median([r.get(k, 0.0) for r in runs])) for k in runs[0]}
+
+
+def _print_steps(steps: dict[int, list[dict]]) -> None:
+    """The per-step table: mean over the bursts of each step's median ms, per samples per symbol."""
+    labels = ["span"] + [n.lstrip("_") for n in BURST_STEPS[:-1]] + ["result", "diagnose", "other"]
+    means = {sps: {k: float(np.mean([d.get(k, 0.0) for d in ds])) for k in labels} for sps, ds in steps.items()}
+    print("where a burst's time goes (ms of CPU per burst, median per step, mean over the bursts; "
+          "span: the span's timing and segmentation before the burst's own steps)")
+    print(f"{'step':>12} " + " ".join(f"{f'{s} sps':>9}" for s in steps))
+    for k in labels:
+        print(f"{k:>12} " + " ".join(f"{means[s][k]:>9.3f}" for s in steps))
+    print(f"{'sum':>12} " + " ".join(f"{sum(means[s].values()):>9.3f}" for s in steps))
+
+
 def burst_table(repeat: int, continuous: bool = False) -> None:
     """Per-burst analysis time against the minimum-work floors, at 8, 16 and 32 samples per symbol."""
     from threadpoolctl import threadpool_limits
 
     from analyzer.pipeline import _regions
 
-    rows = []
+    rows, steps = [], {}
     with threadpool_limits(limits=1, user_api="blas"):
         for sps in BURST_SPS:
             calls, out, fs = _burst_calls(sps, continuous)
             full, floor, mix, search, agree = [], [], [], [], []
+            steps[sps] = []
             for args, b in zip(calls, out.bursts):
                 ctx, a, stop = args[0], args[1], args[2]
                 x = ctx.read(a, stop - a).astype(np.complex64)
@@ -260,6 +332,7 @@ def burst_table(repeat: int, continuous: bool = False) -> None:
                 osc = np.exp(-2j * np.pi * np.outer(b.tones_hz, np.arange(n * sps) % sps) / fs).astype(np.complex64)
                 _regions.region_bursts(*args)                                      # warm
                 full.append(_median_ms(lambda: _regions.region_bursts(*args), repeat))
+                steps[sps].append(step_times(args, repeat))
                 floor.append(_median_ms(lambda: _floor(x, first, n, sps, templates), 5 * repeat))
                 mix.append(_median_ms(lambda: _floor_mix(x, first, n, sps, osc), 5 * repeat))
                 search.append(_median_ms(lambda: _floor_search(x, first, n, sps, templates), 3 * repeat))
@@ -277,6 +350,7 @@ def burst_table(repeat: int, continuous: bool = False) -> None:
     print("  floor: symbol matrix times the two tones' templates; mix: samples times each oscillator, windows "
           "summed; search: the floor at each whole-sample offset over one symbol, then at the best; "
           "same decisions: the floor's against the analysis's")
+    _print_steps(steps)
     r16 = next(r for r in rows if r[0] == 16)
     print(f"full / floor at 16 samples per symbol: {r16[2] / r16[3]:.1f} (goal <= {GOAL_BURST_RATIO:g}) "
           f"{'ok' if r16[2] / r16[3] <= GOAL_BURST_RATIO else 'OVER'}")
