@@ -457,6 +457,18 @@ def symbol_timing(x: np.ndarray, x_start: int, sample_rate_hz: float, tones_hz, 
     return tm
 
 
+def _row_medians(v: np.ndarray) -> np.ndarray:
+    """``numpy.median(v, axis=1, keepdims=True)`` for finite ``v``, the same numbers: the middle
+    element (or the mean of the two middle ones) after one partition of each row, without
+    the general median's checks and copies (several times faster for short rows)."""
+    w = v.shape[1]
+    k = w // 2
+    if w % 2:
+        return np.partition(v, k, axis=1)[:, k:k + 1]
+    p = np.partition(v, (k - 1, k), axis=1)
+    return (p[:, k - 1:k] + p[:, k:k + 1]) / 2
+
+
 #: Fewest changes of tone for :func:`grid_fit` to judge a burst's timing.
 GRID_FIT_MIN_CHANGES = 24
 
@@ -505,6 +517,6 @@ def grid_fit(tone_index: np.ndarray, d: np.ndarray, first_d: int, grid: SymbolGr
     idx = lo[:, None] + np.arange(int(np.ceil(sps)) + 1)[None, :]
     v = d[idx] * np.where(b[kk] == 1, 1.0, -1.0)[:, None]     # rising at the change
     # least-squares change point: the minimum of the prefix sum of the oriented difference
-    pos = lo + np.argmin(np.cumsum(v - np.median(v, axis=1, keepdims=True), axis=1), axis=1) + 0.5
+    pos = lo + np.argmin(np.cumsum(v - _row_medians(v), axis=1), axis=1) + 0.5
     off = np.abs(pos - centre)
     return float(np.mean(off >= 0.375 * sps)), even
