@@ -185,22 +185,26 @@ def symbol_contexts(tone_index: np.ndarray, back: int, ahead: int) -> np.ndarray
     return code
 
 
-def _leading_pair(y: np.ndarray) -> np.ndarray:
-    """The two leading principal directions of the rows of ``y`` (D, 2), about zero."""
-    _, vec = np.linalg.eigh(y.T @ y)
-    return vec[:, -2:]
+def _leading_pairs(grams: np.ndarray) -> np.ndarray:
+    """The two leading eigenvectors (k, D, 2) of each of the Gram matrices ``grams`` (k, D, D):
+    the two leading principal directions, about zero, of the rows they were formed from."""
+    _, vec = np.linalg.eigh(grams)
+    return np.ascontiguousarray(vec[..., -2:])
 
 
-def _subspace_figures(y: np.ndarray, u: np.ndarray, pairs: list) -> np.ndarray:
-    """Per-symbol figures (n, 5) of the rows ``y`` with the signal subspace ``u``."""
-    out = np.empty((len(y), 5))
-    c = y @ u
-    out[:, 0] = np.sum(c * c, axis=1)
-    r = y - c @ u.T
-    for i, t in enumerate(pairs):
-        p = r @ t
+def _subspace_figures(c: np.ndarray, yt: list, ut: list, dims: np.ndarray) -> np.ndarray:
+    """Per-symbol figures (n, 5) of rows ``y`` from their coordinates ``c = y u`` (n, 2) in
+    each row's signal subspace ``u``: the energy in it, and the residual ``y - c u^T`` on each
+    tone's template pair ``t``, as ``y t - c (u^T t)`` from ``yt`` (n, 2) and ``ut`` (n, 2, 2)
+    per tone, with the template dimensions ``dims`` (n, 2) the residual keeps (the same
+    figures as projecting the residual itself, to rounding)."""
+    out = np.empty((len(c), 5))
+    c0, c1 = c[:, :1], c[:, 1:]
+    out[:, 0] = (c0 * c0 + c1 * c1)[:, 0]
+    for i, (yt_i, ut_i) in enumerate(zip(yt, ut)):
+        p = yt_i - c0 * ut_i[:, 0] - c1 * ut_i[:, 1]
         out[:, 1 + 2 * i] = np.sum(p * p, axis=1)
-        out[:, 2 + 2 * i] = t.shape[1] - float(np.sum((u.T @ t) ** 2))
+        out[:, 2 + 2 * i] = dims[:, i]
     return out
 
 
@@ -211,13 +215,36 @@ def _subspace_figures(y: np.ndarray, u: np.ndarray, pairs: list) -> np.ndarray:
 _IN_WEIGHT, _CROSS_WEIGHT = 2.0 / 3.0, 1.0 / 3.0
 
 
-def _context_figures(y: np.ndarray, pairs: list) -> np.ndarray:
-    """Per-symbol figures (n, 5) of one context: e, q0, d0, q1, d1 (see module docstring)."""
-    n = len(y)
-    out = _IN_WEIGHT * _subspace_figures(y, _leading_pair(y), pairs)
-    halves = (np.arange(0, n, 2), np.arange(1, n, 2))
-    for h, other in ((halves[0], halves[1]), (halves[1], halves[0])):
-        out[h] += _CROSS_WEIGHT * _subspace_figures(y[h], _leading_pair(y[other]), pairs)
+def _context_figures(ys: list[np.ndarray], pairs: list) -> np.ndarray:
+    """Per-symbol figures (n, 5): e, q0, d0, q1, d1 (see module docstring) of the contexts'
+    rows ``ys``, one array per context, in that order.
+
+    Each context's subspace is fitted on all its rows (in-sample) and on each
+    half (even and odd positions), the figures of a half taken with the other
+    half's (cross-fitted); the eigenproblems of all contexts are solved in one
+    call, and each context's rows are projected on its three fits and the
+    templates in one product.
+    """
+    grams = []
+    for y in ys:
+        even, odd = y[0::2], y[1::2]
+        grams += [y.T @ y, odd.T @ odd, even.T @ even]
+    vec = _leading_pairs(np.stack(grams))                     # (3 contexts, D, 2): all, odd, even
+    ut = [np.matmul(vec.transpose(0, 2, 1), t) for t in pairs]  # (3 contexts, 2, 2) per tone
+    dims = np.stack([t.shape[1] - np.sum(a ** 2, axis=(1, 2)) for t, a in zip(pairs, ut)], axis=1)
+    t_all = np.concatenate(pairs, axis=1)
+    # per row: coordinates in its context's fits (all, odd half, even half), then on the templates
+    proj = np.concatenate([y @ np.concatenate([vec[3 * j], vec[3 * j + 1], vec[3 * j + 2], t_all], axis=1)
+                           for j, y in enumerate(ys)])
+    sizes = [len(y) for y in ys]
+    ctx = np.repeat(3 * np.arange(len(ys)), sizes)
+    odd_row = (np.concatenate([np.arange(n) for n in sizes]) % 2).astype(bool)
+    cross = ctx + 1 + odd_row                                  # even rows: the odd half's fit, and back
+    edges = 6 + np.cumsum([0] + [t.shape[1] for t in pairs])
+    yt = [proj[:, a:b] for a, b in zip(edges[:-1], edges[1:])]
+    c_cross = np.where(odd_row[:, None], proj[:, 4:6], proj[:, 2:4])
+    out = _IN_WEIGHT * _subspace_figures(proj[:, 0:2], yt, [a[ctx] for a in ut], dims[ctx])
+    out += _CROSS_WEIGHT * _subspace_figures(c_cross, yt, [a[cross] for a in ut], dims[cross])
     return out
 
 
@@ -299,16 +326,13 @@ def _sums_for_contexts(y: np.ndarray, b: np.ndarray, known, back: int, ahead: in
         for j in range(-ahead, back + 1):          # symbol k is unusable if any of k-back..k+ahead is unknown
             idx = unknown + j
             code[idx[(idx >= 0) & (idx < len(code))]] = -1
-    figs = []
-    for c in np.unique(code[code >= 0]):
-        idx = np.flatnonzero(code == c)
-        if idx.size < MIN_CONTEXT_SYMBOLS:
-            continue
-        f = _context_figures(y[idx], pairs)
-        figs.append(np.column_stack([f, np.ones(idx.size), b[idx].astype(float)]))
-    if not figs:
+    groups = [idx for c in np.unique(code[code >= 0])
+              if (idx := np.flatnonzero(code == c)).size >= MIN_CONTEXT_SYMBOLS]
+    if not groups:
         return None
-    v = np.concatenate(figs)
+    idx = np.concatenate(groups)
+    v = np.column_stack([_context_figures([y[g] for g in groups], pairs), np.ones(idx.size),
+                         b[idx].astype(float)])
     if v[:, _D0].sum() <= 0 or v[:, _D1].sum() <= 0:
         return None
     return EnergySums(s=v.sum(axis=0), m=v.T @ v, scale=float(scale))
