@@ -102,7 +102,7 @@ def check_measured(c: dict, bursts: list[dict] | None = None, unit: bool = False
     if name == "max_implementation_loss_db" and v is not None and "upper bound" in (c.get("note") or ""):
         return f"<= {check_value(name, v)}{u}"
     lo, hi = c.get("ci95") or (None, None)
-    if v is not None and lo is not None and hi is not None and name in ("tone_error_hz", "max_tone_correlation"):
+    if v is not None and lo is not None and hi is not None and name in ("tone_error_hz", "symbol_rate_error_ppm", "max_tone_correlation"):
         return f"{check_value(name, v)}{u} (95% {check_value(name, lo)} … {check_value(name, hi)})"
     return check_value(name, v) + u
 

@@ -87,6 +87,7 @@ reference = "PN9"
 [limits]
 min_ebn0_db = 6.0
 max_ber = 1e-4
+symbol_rate_error_ppm = 200.0
 """
 
 
@@ -114,6 +115,11 @@ def test_html_and_pdf_show_the_json_numbers_and_verdict(run_cli, make_capture, t
         row = html[html.index(f'<td class="l" title="{c["name"]}">'):]
         row = row[:row.index("</tr>")]
         assert ("FAIL" if not c["pass"] else "pass") in row
+    # the symbol-rate check shows the interval it was judged with, as the JSON states it
+    rate = next(c for c in rep["checks"] if c["name"] == "symbol_rate_error_ppm")
+    lo, hi = rate["ci95"]
+    assert lo <= rate["measured"] <= hi
+    assert f"{rate['measured']:.1f} (95% {lo:.1f} … {hi:.1f})" in html
     for b in rep["bursts"]:
         assert f"<h3>Burst {b['index']}</h3>" in html
     # the PDF's pages after the summary: one diagnostics page per burst with its numbers
