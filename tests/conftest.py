@@ -32,3 +32,33 @@ def run_cli():
         return runner.invoke(app, [str(a) for a in args])
 
     return run
+
+
+@pytest.fixture(scope="session")
+def dc_capture(tmp_path_factory):
+    """Three bursts, a DC offset, 16 samples per symbol: every burst straddles many 4096-sample blocks."""
+    d = tmp_path_factory.mktemp("blk")
+    res = synthesize(SynthParams(continuous_phase=False,
+                                 n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
+                                 start_offset_samples=3000.5, seed=7))
+    x = res.samples + (0.01 - 0.004j)
+    return capture.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
+
+
+def _json_numbers(obj, path=""):
+    """Every number in a JSON document with its key path."""
+    if isinstance(obj, dict):
+        for k, v in obj.items():
+            if k != "path":
+                yield from _json_numbers(v, f"{path}/{k}")
+    elif isinstance(obj, list):
+        for i, v in enumerate(obj):
+            yield from _json_numbers(v, f"{path}/{i}")
+    elif isinstance(obj, (int, float)) and not isinstance(obj, bool):
+        yield path, float(obj)
+
+
+@pytest.fixture
+def json_numbers():
+    """``json_numbers(doc)``: every number in a JSON document with its key path (``path`` keys skipped)."""
+    return _json_numbers

@@ -8,22 +8,8 @@ from __future__ import annotations
 
 import re
 
-import pytest
 
-from analyzer import capture
 from analyzer.cli import _commands  # private: the progress bar has no public door
-from analyzer.synth import SynthParams, synthesize
-
-
-@pytest.fixture(scope="module")
-def dc_capture(tmp_path_factory):
-    """Three bursts, a DC offset, 16 samples per symbol: every burst straddles many 4096-sample blocks."""
-    d = tmp_path_factory.mktemp("blk")
-    res = synthesize(SynthParams(continuous_phase=False,
-                                 n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
-                                 start_offset_samples=3000.5, seed=7))
-    x = res.samples + (0.01 - 0.004j)
-    return capture.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
 
 
 def test_no_progress_bar_when_not_a_terminal(dc_capture, tmp_path, run_cli):

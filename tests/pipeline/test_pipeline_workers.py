@@ -10,35 +10,10 @@ from __future__ import annotations
 
 import json
 
-import pytest
 
 from analyzer import pipeline, capture
 from analyzer.synth import SynthParams, synthesize
 from analyzer.pipeline import _regions  # private: the region limit and the reader patched (no public door)
-
-
-def _numbers(obj, path=""):
-    """Every number in a JSON document with its key path."""
-    if isinstance(obj, dict):
-        for k, v in obj.items():
-            if k != "path":
-                yield from _numbers(v, f"{path}/{k}")
-    elif isinstance(obj, list):
-        for i, v in enumerate(obj):
-            yield from _numbers(v, f"{path}/{i}")
-    elif isinstance(obj, (int, float)) and not isinstance(obj, bool):
-        yield path, float(obj)
-
-
-@pytest.fixture(scope="module")
-def dc_capture(tmp_path_factory):
-    """Three bursts, a DC offset, 16 samples per symbol: every burst straddles many 4096-sample blocks."""
-    d = tmp_path_factory.mktemp("blk")
-    res = synthesize(SynthParams(continuous_phase=False,
-                                 n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
-                                 start_offset_samples=3000.5, seed=7))
-    x = res.samples + (0.01 - 0.004j)
-    return capture.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
 
 
 def test_region_longer_than_limit_is_read_in_pieces(dc_capture, monkeypatch):
@@ -113,7 +88,7 @@ json.dump({"parent": os.getpid(), "pids": pids, "survey_pids": seen, "one": one,
 """
 
 
-def test_worker_processes_give_the_same_report(tmp_path):
+def test_worker_processes_give_the_same_report(tmp_path, json_numbers):
     """The survey pass and the bursts in forked workers: the same numbers as in one process (reference: the
     single-process run, zero tolerance).  Run in a fresh interpreter: this test process may hold
     other threads, and then the analysis rightly declines to fork."""
@@ -130,6 +105,6 @@ def test_worker_processes_give_the_same_report(tmp_path):
     assert len(got["survey_pids"]) > 1 and got["parent"] not in got["survey_pids"]
     one, two = got["one"], got["two"]
     assert len(one["bursts"]) == 6
-    a, b = dict(_numbers(one)), dict(_numbers(two))
+    a, b = dict(json_numbers(one)), dict(json_numbers(two))
     assert a.keys() == b.keys()
     assert {k: (a[k], b[k]) for k in a if a[k] != b[k]} == {}          # tolerance: exactly equal

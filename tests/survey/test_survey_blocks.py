@@ -11,37 +11,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from analyzer import pipeline, capture
+from analyzer import pipeline
 from analyzer import report
-from analyzer.synth import SynthParams, synthesize
-
-
-def _numbers(obj, path=""):
-    """Every number in a JSON document with its key path."""
-    if isinstance(obj, dict):
-        for k, v in obj.items():
-            if k != "path":
-                yield from _numbers(v, f"{path}/{k}")
-    elif isinstance(obj, list):
-        for i, v in enumerate(obj):
-            yield from _numbers(v, f"{path}/{i}")
-    elif isinstance(obj, (int, float)) and not isinstance(obj, bool):
-        yield path, float(obj)
-
-
-@pytest.fixture(scope="module")
-def dc_capture(tmp_path_factory):
-    """Three bursts, a DC offset, 16 samples per symbol: every burst straddles many 4096-sample blocks."""
-    d = tmp_path_factory.mktemp("blk")
-    res = synthesize(SynthParams(continuous_phase=False,
-                                 n_bursts=3, symbols_per_burst=700, gap_samples=6000.0, ebn0_db=11.0,
-                                 start_offset_samples=3000.5, seed=7))
-    x = res.samples + (0.01 - 0.004j)
-    return capture.write_sigmf(d / "dc", x, 80e3, truth=res.truth)
 
 
 @pytest.mark.parametrize("hints", [True, False])
-def test_tiny_blocks_give_the_same_report_as_whole_file(dc_capture, hints):
+def test_tiny_blocks_give_the_same_report_as_whole_file(dc_capture, hints, json_numbers):
     kw = dict(tones_hz=(-2500, 2500), symbol_rate_hz=5000) if hints else {}
     whole = report.build_report(pipeline.analyze(dc_capture, **kw))
     tiny = report.build_report(pipeline.analyze(dc_capture, block=pipeline.QUANTUM, **kw))
@@ -51,7 +26,7 @@ def test_tiny_blocks_give_the_same_report_as_whole_file(dc_capture, hints):
     straddle = [b for b in whole["bursts"]
                 if int(b["start_sample"]) // pipeline.QUANTUM != int(b["stop_sample"]) // pipeline.QUANTUM]
     assert len(straddle) == 3
-    a, b = dict(_numbers(whole)), dict(_numbers(tiny))
+    a, b = dict(json_numbers(whole)), dict(json_numbers(tiny))
     assert a.keys() == b.keys()
     diff = {k: (a[k], b[k]) for k in a if a[k] != b[k]}
     assert diff == {}                                                    # tolerance: exactly equal
