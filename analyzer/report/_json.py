@@ -6,27 +6,19 @@ Numbers that could not be measured are ``null``, never NaN.
 from __future__ import annotations
 
 import json
-import math
 from pathlib import Path
 
 import numpy as np
 
 from .. import __version__
 from .. import estimate
+from ..numbers import finite_or_none
 
 SCHEMA_PATH = Path(__file__).with_name("report.schema.json")
 SCHEMA_ID = "https://tonepair.invalid/schema/report-1.json"
 
 
-def _num(x):
-    """A finite float, or None."""
-    if x is None:
-        return None
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
+_num = finite_or_none
 
 
 def _pair(v):

@@ -13,6 +13,7 @@ import math
 from dataclasses import dataclass
 
 from .. import estimate
+from ..numbers import finite_or_none
 from ._parse import LIMIT_UNITS, Spec
 
 __all__ = ["BerReading", "BurstReading", "Readings", "readings", "judge"]
@@ -59,15 +60,7 @@ class Readings:
     implementation_loss_db_ci95: Interval
 
 
-def _num(x):
-    """A finite float, or None (as the reports state a number)."""
-    if x is None:
-        return None
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
+_num = finite_or_none
 
 
 def _pair(v) -> Interval:
