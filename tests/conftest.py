@@ -5,7 +5,8 @@ from __future__ import annotations
 import pytest
 from typer.testing import CliRunner
 
-from analyzer import capture
+from analyzer import capture, pipeline
+from analyzer.capture import ArrayCapture
 from analyzer.cli import app
 from analyzer.synth import SynthParams, synthesize
 
@@ -62,3 +63,17 @@ def _json_numbers(obj, path=""):
 def json_numbers():
     """``json_numbers(doc)``: every number in a JSON document with its key path (``path`` keys skipped)."""
     return _json_numbers
+
+
+def _analyse_synth(params, x=None, tones=None):
+    res = synthesize(params)
+    xx = res.samples if x is None else x(res.samples)
+    return pipeline.analyze_capture(ArrayCapture(xx, params.sample_rate_hz),
+                                    pipeline.AnalysisOptions(tones or params.tones_hz, params.symbol_rate_hz))
+
+
+@pytest.fixture
+def analyse_synth():
+    """``analyse_synth(params, x=None, tones=None)``: synthesise ``params``, pass the samples through
+    ``x`` if given, analyse them in memory with the tones (default the synth's) and rate as hints."""
+    return _analyse_synth

@@ -15,42 +15,35 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from analyzer import diagnostics, pipeline
-from analyzer.capture import ArrayCapture
-from analyzer.synth import SynthParams, synthesize
+from analyzer import diagnostics
+from analyzer.synth import SynthParams
 from analyzer.diagnostics import _envelope, _model_checks  # private kernels, tested directly
 
-FS, RS = 80000.0, 5000.0
+FS = 80000.0
 
 
-def _run(params, x=None, tones=None):
-    res = synthesize(params)
-    xx = res.samples if x is None else x(res.samples)
-    return pipeline.analyze_capture(ArrayCapture(xx, FS), pipeline.AnalysisOptions(tones or params.tones_hz, RS))
-
-
-def test_clean_captures_are_not_flagged():
+def test_clean_captures_are_not_flagged(analyse_synth):
     flagged = 0
     for seed in range(10):
-        out = _run(SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=2000, seed=300 + seed))
+        out = analyse_synth(SynthParams(continuous_phase=False, ebn0_db=10.0, symbols_per_burst=2000, seed=300 + seed))
         b = out.bursts[0]
         flagged += any(c.flagged for c in b.checks)
     # Family-wise level 1% (Bonferroni): P(>= 2 flagged of 10) < 0.5% (scipy.stats.binom(10, 0.01).sf(1)).
     assert flagged <= 1
 
 
-def test_interferer_is_flagged():
+def test_interferer_is_flagged(analyse_synth):
     def add_cw(x):
         n = np.arange(len(x))
         return x + 0.08 * np.exp(2j * np.pi * 2300.0 * n / FS)   # a carrier 200 Hz from the upper tone
 
-    out = _run(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, seed=5), x=add_cw)
+    out = analyse_synth(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, seed=5), x=add_cw)
     names = {c.name for c in out.bursts[0].checks if c.flagged}
     # The idle-branch law (Rayleigh, scipy.stats.rayleigh) must be rejected at the 1% level.
     assert "Rayleigh fit, tone not sent" in names
 
 
-def test_impulsive_noise_is_flagged():
+def test_impulsive_noise_is_flagged(analyse_synth):
     def impulses(x):
         rng = np.random.default_rng(9)
         y = x.copy()
@@ -58,7 +51,7 @@ def test_impulsive_noise_is_flagged():
         y[idx] += 3.0 * np.exp(2j * np.pi * rng.uniform(size=idx.size))
         return y
 
-    out = _run(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, seed=6), x=impulses)
+    out = analyse_synth(SynthParams(continuous_phase=False, ebn0_db=12.0, symbols_per_burst=2000, seed=6), x=impulses)
     assert any(c.flagged for c in out.bursts[0].checks)
 
 

@@ -11,20 +11,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from scipy import integrate, special, stats
+from scipy import special, stats
 
-from analyzer import pipeline, theory
-from analyzer.capture import ArrayCapture
-from analyzer.synth import SynthParams, synthesize
+from analyzer import theory
+from analyzer.synth import SynthParams
 from analyzer.theory import _likelihood  # private kernel, tested directly
-
-FS, RS = 80000.0, 5000.0
-
-
-def _run(params, x=None, tones=None):
-    res = synthesize(params)
-    xx = res.samples if x is None else x(res.samples)
-    return pipeline.analyze_capture(ArrayCapture(xx, FS), pipeline.AnalysisOptions(tones or params.tones_hz, RS))
 
 
 def test_likelihood_rule_equal_energies_is_square_law():
@@ -60,9 +51,9 @@ def test_likelihood_ber_monte_carlo():
     assert 0.25 * (np.exp(-e0 / 2) + np.exp(-e1 / 2)) > 2 * hi / (2 * n)
 
 
-def test_tone_imbalance_3db():
+def test_tone_imbalance_3db(analyse_synth):
     a1 = 10 ** (-3 / 20)
-    out = _run(SynthParams(continuous_phase=False,
+    out = analyse_synth(SynthParams(continuous_phase=False,
                            ebn0_db=10.0, symbols_per_burst=3000, tone_amplitudes=(1.0, a1), seed=8))
     b = out.bursts[0]
     # Reference: the generator's amplitude ratio, 20 log10(a1) = -3 dB; tolerance 0.5 dB (issue 4).
